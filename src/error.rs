@@ -1,0 +1,53 @@
+//! Typed errors for configurations the type system cannot reject at compile time.
+
+use core::fmt;
+
+/// A configuration value that cannot work, named by the parameter at fault.
+///
+/// Returned at construction time; once an analyzer exists, no input sample can make it fail.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum ConfigError {
+    /// The sample rate must be finite and greater than zero (Hz).
+    SampleRate,
+    /// The overlap must be fewer samples than the block length.
+    Overlap {
+        /// The overlap asked for, in samples.
+        overlap: usize,
+        /// The block length N.
+        block_len: usize,
+    },
+    /// The overlap fraction must be finite and in `0.0..1.0`.
+    OverlapFraction,
+    /// A linear average needs a count of at least 1; an exponential one a time constant >= 1.
+    AverageCount,
+    /// The sensitivity (engineering units per input unit) must be finite and non-zero.
+    Sensitivity,
+    /// The full-scale (overload) limit must be finite and greater than zero.
+    FullScale,
+    /// A window parameter is out of its range (Kaiser beta < 0, Tukey alpha outside 0..=1,
+    /// force width outside (0, 1], exponential end fraction outside (0, 1], empty cosine sum).
+    WindowParameter,
+    /// A frequency (band edge, integration cut-off, tone search range) is not usable.
+    Frequency,
+}
+
+impl fmt::Display for ConfigError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Self::SampleRate => f.write_str("sample rate must be finite and > 0 Hz"),
+            Self::Overlap { overlap, block_len } => write!(
+                f,
+                "overlap of {overlap} samples must be less than the block length {block_len}"
+            ),
+            Self::OverlapFraction => f.write_str("overlap fraction must be in 0.0..1.0"),
+            Self::AverageCount => f.write_str("average count / time constant must be >= 1"),
+            Self::Sensitivity => f.write_str("sensitivity must be finite and non-zero"),
+            Self::FullScale => f.write_str("full scale must be finite and > 0"),
+            Self::WindowParameter => f.write_str("window parameter out of range"),
+            Self::Frequency => f.write_str("frequency out of range"),
+        }
+    }
+}
+
+impl core::error::Error for ConfigError {}

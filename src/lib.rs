@@ -1,0 +1,40 @@
+//! # leakless
+//!
+//! Windowed, averaged block spectra with correct levels, for vibration sensor nodes.
+//!
+//! `no_std`, no heap, no `unsafe`: every size is a const generic, window tables and their
+//! correction factors are computed at compile time, and `core::mem::size_of` of an analyzer
+//! is its RAM cost.
+//!
+//! ```
+//! use leakless::window::{Shape, Window};
+//!
+//! // The table and its factors are evaluated by the compiler and live in flash.
+//! const HANN: Window<1024> = Window::new(Shape::Hann);
+//! assert!((HANN.factors().amplitude_correction - 2.0).abs() < 1e-12);
+//! assert!((HANN.factors().enbw_bins - 1.5).abs() < 1e-12);
+//! ```
+//!
+//! ## Optional features
+//!
+//! | feature | default | what it adds |
+//! |---|---|---|
+//! | `f32` | yes | the floating-point transform (over `microfft`) and analyzer |
+//! | `fixed` | no | Q15/Q31 transforms and analyzer; no float on the hot path |
+//! | `defmt` | no | `defmt::Format` for the public types, for firmware logs |
+//! | `std` | no | host helpers only; the core never needs it |
+#![cfg_attr(not(test), no_std)]
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]
+#![deny(
+    clippy::std_instead_of_core,
+    clippy::alloc_instead_of_core,
+    clippy::std_instead_of_alloc
+)]
+
+pub mod error;
+pub mod math;
+pub mod window;
+
+pub use error::ConfigError;
+pub use window::{Factors, Shape, Symmetry, Window, WindowQ15};
