@@ -30,6 +30,13 @@ pub enum ConfigError {
     WindowParameter,
     /// A frequency (band edge, integration cut-off, tone search range) is not usable.
     Frequency,
+    /// A spectrum of `bins` lines cannot hold the `block_len / 2 + 1` lines of an even block.
+    BinCount {
+        /// The lines the spectrum has.
+        bins: usize,
+        /// The block length N.
+        block_len: usize,
+    },
 }
 
 impl fmt::Display for ConfigError {
@@ -46,6 +53,10 @@ impl fmt::Display for ConfigError {
             Self::FullScale => f.write_str("full scale must be finite and > 0"),
             Self::WindowParameter => f.write_str("window parameter out of range"),
             Self::Frequency => f.write_str("frequency out of range"),
+            Self::BinCount { bins, block_len } => write!(
+                f,
+                "{bins} spectrum lines do not fit a block of {block_len} (need N/2 + 1)"
+            ),
         }
     }
 }

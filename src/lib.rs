@@ -33,8 +33,16 @@
 )]
 
 pub mod error;
+pub mod fft;
 pub mod math;
+pub mod spectrum;
 pub mod window;
 
 pub use error::ConfigError;
 pub use window::{Factors, Shape, Symmetry, Window, WindowQ15};
+
+#[cfg(feature = "f32")]
+pub use spectrum::analyzer::{Analyzer, Config, Overlap, PushReport, Stage, Status};
+pub use spectrum::average::{Averaging, WhenDone};
+pub use spectrum::condition::{Detrend, OverloadPolicy};
+pub use spectrum::scale::{Correction, Scale, Spectrum, SpectrumInfo};

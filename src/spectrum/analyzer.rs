@@ -1,0 +1,505 @@
+//! The float streaming analyzer: frame, condition, window, transform, average, read.
+
+use crate::error::ConfigError;
+use crate::fft::float::{is_supported, rfft};
+use crate::spectrum::average::{Averager, Averaging, WhenDone};
+use crate::spectrum::condition::{Conditioning, Detrend, OverloadPolicy};
+use crate::spectrum::frame::Framer;
+use crate::spectrum::scale::{Correction, LineGains, Scale, Spectrum, SpectrumInfo};
+use crate::window::Window;
+
+/// The overlap between consecutive blocks.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Overlap {
+    /// A number of samples, `0 ..= N - 1`.
+    Samples(usize),
+    /// A fraction of the block in `0.0 .. 1.0`, rounded to the nearest sample
+    /// (0.5 for Hann, about 2/3 for Blackman-Harris and Nuttall, 0.75 for flat tops).
+    Fraction(f32),
+}
+
+impl Overlap {
+    /// The overlap in samples for `N`-sample blocks.
+    pub fn samples(self, block_len: usize) -> Result<usize, ConfigError> {
+        let samples = match self {
+            Overlap::Samples(s) => s,
+            Overlap::Fraction(f) => {
+                if !(f.is_finite() && (0.0..1.0).contains(&f)) {
+                    return Err(ConfigError::OverlapFraction);
+                }
+                libm::roundf(f * block_len as f32) as usize
+            }
+        };
+        if samples >= block_len {
+            return Err(ConfigError::Overlap {
+                overlap: samples,
+                block_len,
+            });
+        }
+        Ok(samples)
+    }
+}
+
+/// Settings of an [`Analyzer`]. Start from [`Config::new`] and change what differs, with the
+/// `with_*` setters or the public fields; [`Analyzer::new`] checks them all.
+///
+/// ```
+/// use leakless::{Averaging, Config, Detrend, WhenDone};
+///
+/// let config = Config::new(25_600.0)
+///     .with_overlap_fraction(0.5)
+///     .with_averaging(Averaging::Linear { count: 16, when_done: WhenDone::Restart })
+///     .with_sensitivity(9.80665 / 16_384.0) // counts to m/s^2 (a +-2 g, 16-bit sensor)
+///     .with_full_scale(32_767.0) // counts
+///     .with_unit("m/s^2");
+/// assert_eq!(config.detrend, Detrend::Mean);
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Config {
+    /// Sample rate, Hz: finite and > 0.
+    pub sample_rate_hz: f32,
+    /// Overlap between blocks. Default: none.
+    pub overlap: Overlap,
+    /// How blocks are averaged. Default: linear over 8 blocks, then restart.
+    pub averaging: Averaging,
+    /// What is removed from each block before windowing. Default: the mean.
+    pub detrend: Detrend,
+    /// Engineering units per input unit (per count for [`Analyzer::push_counts`]): finite,
+    /// non-zero. Default: 1.
+    pub sensitivity: f32,
+    /// Overload limit in input units (a block with any `|x| >= full_scale` is overloaded):
+    /// finite and > 0, or `None` for no check. Default: `None`.
+    pub full_scale: Option<f32>,
+    /// Engineering unit name, e.g. `"m/s^2"` or `"g"`. Default: `""`.
+    pub unit: &'static str,
+    /// What happens to overloaded blocks. Default: [`OverloadPolicy::Reject`].
+    pub overload: OverloadPolicy,
+}
+
+impl Config {
+    /// The defaults listed on each field, at `sample_rate_hz`.
+    pub const fn new(sample_rate_hz: f32) -> Self {
+        Self {
+            sample_rate_hz,
+            overlap: Overlap::Samples(0),
+            averaging: Averaging::Linear {
+                count: 8,
+                when_done: WhenDone::Restart,
+            },
+            detrend: Detrend::Mean,
+            sensitivity: 1.0,
+            full_scale: None,
+            unit: "",
+            overload: OverloadPolicy::Reject,
+        }
+    }
+
+    /// Overlap of `samples` samples.
+    pub const fn with_overlap(mut self, samples: usize) -> Self {
+        self.overlap = Overlap::Samples(samples);
+        self
+    }
+
+    /// Overlap as a fraction of the block, `0.0 .. 1.0`.
+    pub const fn with_overlap_fraction(mut self, fraction: f32) -> Self {
+        self.overlap = Overlap::Fraction(fraction);
+        self
+    }
+
+    /// Averaging mode.
+    pub const fn with_averaging(mut self, averaging: Averaging) -> Self {
+        self.averaging = averaging;
+        self
+    }
+
+    /// Detrending.
+    pub const fn with_detrend(mut self, detrend: Detrend) -> Self {
+        self.detrend = detrend;
+        self
+    }
+
+    /// Sensitivity, engineering units per input unit.
+    pub const fn with_sensitivity(mut self, sensitivity: f32) -> Self {
+        self.sensitivity = sensitivity;
+        self
+    }
+
+    /// Full scale in input units.
+    pub const fn with_full_scale(mut self, full_scale: f32) -> Self {
+        self.full_scale = Some(full_scale);
+        self
+    }
+
+    /// Engineering unit name.
+    pub const fn with_unit(mut self, unit: &'static str) -> Self {
+        self.unit = unit;
+        self
+    }
+
+    /// Overload policy.
+    pub const fn with_overload_policy(mut self, overload: OverloadPolicy) -> Self {
+        self.overload = overload;
+        self
+    }
+}
+
+/// A stage of the per-block pipeline, passed to the probe of [`Analyzer::push_probed`] as the
+/// stage *begins* (and [`Stage::Done`] when the block is finished), so the time between two
+/// calls is the time of the first stage.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Stage {
+    /// Non-finite and overload checks, and the block mean (one pass).
+    Condition,
+    /// Detrend and window (one pass).
+    Window,
+    /// The real FFT.
+    Transform,
+    /// `|X|^2` per line folded into the average (one pass; the scaling to levels is done when
+    /// a spectrum is read, not per block).
+    Average,
+    /// The block is finished (after any stage: rejected blocks skip the rest).
+    Done,
+}
+
+/// What one call of [`Analyzer::push`] did.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct PushReport {
+    /// Blocks completed by these samples.
+    pub blocks: u32,
+    /// Blocks that entered the average.
+    pub averaged: u32,
+    /// Blocks kept out for a non-finite sample or (with [`OverloadPolicy::Reject`]) overload.
+    pub rejected: u32,
+    /// Blocks ignored because a held linear average was already done.
+    pub ignored: u32,
+    /// Linear averages completed.
+    pub averages_completed: u32,
+}
+
+impl PushReport {
+    fn add(&mut self, other: PushReport) {
+        self.blocks += other.blocks;
+        self.averaged += other.averaged;
+        self.rejected += other.rejected;
+        self.ignored += other.ignored;
+        self.averages_completed += other.averages_completed;
+    }
+}
+
+/// Counters since construction or the last [`Analyzer::reset`] (saturating).
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Status {
+    /// Blocks framed.
+    pub blocks_seen: u32,
+    /// Blocks that entered an average.
+    pub blocks_averaged: u32,
+    /// Blocks with a NaN, an infinity, or a sample beyond
+    /// [`MAX_INPUT_MAGNITUDE`](crate::spectrum::condition::MAX_INPUT_MAGNITUDE); never averaged.
+    pub rejected_non_finite: u32,
+    /// Blocks with a sample at or beyond full scale, whether averaged or not (a block can be
+    /// both non-finite and overloaded: an infinity is both).
+    pub overloaded: u32,
+    /// Blocks in the current average.
+    pub current_average: u32,
+    /// Linear averages completed.
+    pub averages_completed: u32,
+}
+
+/// A streaming spectrum analyzer for `N`-sample blocks (`BINS = N/2 + 1` lines).
+///
+/// Push samples in chunks of any length; every `N - overlap` samples a block is checked,
+/// detrended, windowed, transformed and its power averaged. Read a [`Spectrum`] on any scale at
+/// any time. Levels are one-sided (lines `1 ..= N/2 - 1` carry their negative-frequency
+/// image, DC and Nyquist do not), in engineering units (`input * sensitivity`), with the
+/// window correction the caller asks for; see [`crate::spectrum::scale`].
+///
+/// # Generics
+///
+/// * `N`: block length, a power of two from 64 to 4096 (compile-time checked).
+/// * `BINS`: `N / 2 + 1` (compile-time checked; stable Rust cannot compute it in a type).
+///
+/// ```compile_fail
+/// use leakless::{Analyzer, Config, Shape, Window};
+/// static HANN: Window<1024> = Window::new(Shape::Hann);
+/// let _ = Analyzer::<1024, 512>::new(&HANN, Config::new(1024.0)); // error: BINS must be N/2 + 1
+/// ```
+///
+/// # Memory
+///
+/// No allocation: `core::mem::size_of::<Analyzer<N, BINS>>()` is the whole RAM cost. It owns
+/// the overlap ring (`4 N` bytes), the work block (`4 N`) and the power accumulator
+/// (`4 BINS`), plus about 100 bytes of settings and counters; the window table stays where
+/// the window is (flash, for a `static`). At `N = 1024` that is 10 360 bytes on a 64-bit host
+/// and less on a 32-bit target (the buffers alone are 10 244).
+///
+/// # Example
+///
+/// ```
+/// use leakless::{Analyzer, Averaging, Config, Correction, Scale, Shape, WhenDone, Window};
+///
+/// static HANN: Window<1024> = Window::new(Shape::Hann);
+/// let config = Config::new(1024.0)
+///     .with_overlap_fraction(0.5)
+///     .with_averaging(Averaging::Linear { count: 4, when_done: WhenDone::Hold })
+///     .with_unit("m/s^2");
+/// let mut analyzer: Analyzer<1024, 513> = Analyzer::new(&HANN, config).unwrap();
+///
+/// // 1 m/s^2 (peak) at 100 Hz, an exact line (bin width 1 Hz), pushed in DMA-sized chunks.
+/// let tone: Vec<f32> = (0..4096)
+///     .map(|n| (2.0 * core::f32::consts::PI * 100.0 * n as f32 / 1024.0).sin())
+///     .collect();
+/// for chunk in tone.chunks(256) {
+///     analyzer.push(chunk);
+/// }
+/// assert!(analyzer.is_done());
+/// // Amplitude-corrected peak reads the tone's amplitude ...
+/// let peak = analyzer.spectrum(Scale::Peak, Correction::Amplitude);
+/// assert!((peak.values()[100] - 1.0).abs() < 1e-4);
+/// assert_eq!(peak.frequency_hz(100), 100.0);
+/// // ... and the PSD integrates to its mean square, A^2 / 2.
+/// let psd = analyzer.spectrum(Scale::Psd, Correction::Energy);
+/// let power: f32 = psd.values().iter().map(|p| p * psd.bin_width_hz()).sum();
+/// assert!((power - 0.5).abs() < 1e-4);
+/// assert!((analyzer.overall_rms(false) - 0.5f32.sqrt()).abs() < 1e-4);
+/// ```
+#[derive(Clone, Debug)]
+pub struct Analyzer<'a, const N: usize, const BINS: usize> {
+    window: &'a Window<N>,
+    framer: Framer<f32, N>,
+    block: [f32; N],
+    averager: Averager<BINS>,
+    conditioning: Conditioning,
+    config: Config,
+    status: Status,
+}
+
+impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
+    /// An analyzer over `window` (borrowed: the table stays in flash) with `config`, or the
+    /// first setting that cannot work.
+    pub fn new(window: &'a Window<N>, config: Config) -> Result<Self, ConfigError> {
+        const {
+            assert!(is_supported(N), "N must be a power of two from 64 to 4096");
+            assert!(BINS == N / 2 + 1, "BINS must be N/2 + 1");
+        }
+        if !(config.sample_rate_hz.is_finite() && config.sample_rate_hz > 0.0) {
+            return Err(ConfigError::SampleRate);
+        }
+        let overlap = config.overlap.samples(N)?;
+        let framer = Framer::new(overlap)?;
+        let averager = Averager::new(config.averaging)?;
+        let conditioning = Conditioning::new(
+            config.detrend,
+            config.sensitivity,
+            config.full_scale,
+            config.overload,
+        )?;
+        Ok(Self {
+            window,
+            framer,
+            block: [0.0; N],
+            averager,
+            conditioning,
+            config,
+            status: Status::default(),
+        })
+    }
+
+    /// Pushes samples (input units), any number. Blocks completed by them are processed now;
+    /// the rest waits for the next call. Any chunking of the same stream gives bit-identical
+    /// results.
+    pub fn push(&mut self, samples: &[f32]) -> PushReport {
+        self.push_probed(samples, &mut |_| {})
+    }
+
+    /// Pushes `i16` samples (counts; `sensitivity` is then engineering units per count, and
+    /// `full_scale` is in counts). The same as pushing them converted to `f32`.
+    pub fn push_counts(&mut self, counts: &[i16]) -> PushReport {
+        let mut report = PushReport::default();
+        let mut converted = [0.0f32; 64];
+        for chunk in counts.chunks(converted.len()) {
+            let part = &mut converted[..chunk.len()];
+            for (f, &c) in part.iter_mut().zip(chunk) {
+                *f = f32::from(c);
+            }
+            report.add(self.push(part));
+        }
+        report
+    }
+
+    /// [`Analyzer::push`] that calls `probe(stage)` at every stage boundary of every block
+    /// (for reading a cycle counter in firmware). `push` is this with an empty probe, which
+    /// the compiler removes.
+    pub fn push_probed(&mut self, samples: &[f32], probe: &mut impl FnMut(Stage)) -> PushReport {
+        let mut report = PushReport::default();
+        let mut input = samples;
+        while self.framer.next_block(&mut input, &mut self.block) {
+            report.add(self.process_block(probe));
+        }
+        report
+    }
+
+    /// Runs the pipeline on the block in `self.block`.
+    fn process_block(&mut self, probe: &mut impl FnMut(Stage)) -> PushReport {
+        let mut report = PushReport {
+            blocks: 1,
+            ..PushReport::default()
+        };
+        let status = &mut self.status;
+        status.blocks_seen = status.blocks_seen.saturating_add(1);
+
+        probe(Stage::Condition);
+        let check = self.conditioning.inspect(&self.block);
+        if check.non_finite {
+            status.rejected_non_finite = status.rejected_non_finite.saturating_add(1);
+        }
+        if check.overloaded {
+            status.overloaded = status.overloaded.saturating_add(1);
+        }
+        if !self.conditioning.accepts(&check) {
+            report.rejected = 1;
+            probe(Stage::Done);
+            return report;
+        }
+        if !self.averager.wants_block() {
+            report.ignored = 1;
+            probe(Stage::Done);
+            return report;
+        }
+
+        probe(Stage::Window);
+        let offset = check.offset;
+        for (x, w) in self.block.iter_mut().zip(self.window.table()) {
+            *x = (*x - offset) * w;
+        }
+
+        probe(Stage::Transform);
+        let spectrum = rfft(&mut self.block);
+
+        probe(Stage::Average);
+        let parts = spectrum.parts();
+        let completed = self.averager.add(
+            parts.dc * parts.dc,
+            parts.interior.iter().map(|x| x.norm_sqr()),
+            parts.nyquist * parts.nyquist,
+        );
+        report.averaged = 1;
+        status.blocks_averaged = status.blocks_averaged.saturating_add(1);
+        status.current_average = self.averager.averaged();
+        if completed {
+            report.averages_completed = 1;
+            status.averages_completed = status.averages_completed.saturating_add(1);
+        }
+        probe(Stage::Done);
+        report
+    }
+
+    /// The current average on `scale` with `correction` (densities are always
+    /// energy-corrected; see [`Correction::effective`]). All zeros, with `averages() == 0`,
+    /// before the first accepted block.
+    pub fn spectrum(&self, scale: Scale, correction: Correction) -> Spectrum<BINS> {
+        Spectrum::from_squares(
+            self.averager.squares(),
+            self.squares_gain(),
+            scale,
+            correction,
+            self.info(),
+        )
+    }
+
+    /// [`Analyzer::spectrum`] into an existing spectrum (no 2 KB temporary on the stack).
+    pub fn read_into(&self, out: &mut Spectrum<BINS>, scale: Scale, correction: Correction) {
+        out.set_from_squares(
+            self.averager.squares(),
+            self.squares_gain(),
+            scale,
+            correction,
+            self.info(),
+        );
+    }
+
+    /// Overall RMS level in engineering units from the averaged power (Parseval: the sum of
+    /// the energy-corrected power over all lines), with or without the DC line.
+    pub fn overall_rms(&self, include_dc: bool) -> f32 {
+        let gain = self.squares_gain();
+        if gain == 0.0 {
+            return 0.0;
+        }
+        let info = self.info();
+        let to = LineGains::of(
+            Scale::Power,
+            Correction::Energy,
+            &info.factors,
+            info.sample_rate_hz,
+            N,
+        );
+        let squares = self.averager.squares();
+        let interior: f32 = squares[1..BINS - 1].iter().sum();
+        let dc = if include_dc { squares[0] } else { 0.0 };
+        let power =
+            (interior as f64 * to.interior + (dc + squares[BINS - 1]) as f64 * to.edge) / gain;
+        libm::sqrt(power) as f32
+    }
+
+    /// `squares[k] = gain * mean |X[k]|^2` in engineering units^2.
+    fn squares_gain(&self) -> f64 {
+        let s = self.conditioning.sensitivity() as f64;
+        self.averager.gain() / (s * s)
+    }
+
+    fn info(&self) -> SpectrumInfo {
+        SpectrumInfo {
+            sample_rate_hz: self.config.sample_rate_hz,
+            block_len: N,
+            factors: *self.window.factors(),
+            unit: self.config.unit,
+            averages: self.averager.averaged(),
+        }
+    }
+
+    /// The counters.
+    pub fn status(&self) -> Status {
+        self.status
+    }
+
+    /// Whether a linear average has all its blocks.
+    pub fn is_done(&self) -> bool {
+        self.averager.is_done()
+    }
+
+    /// Forgets the buffered samples, the average and the counters.
+    pub fn reset(&mut self) {
+        self.framer.clear();
+        self.averager.reset();
+        self.status = Status::default();
+    }
+
+    /// The settings as given.
+    pub fn config(&self) -> &Config {
+        &self.config
+    }
+
+    /// The window.
+    pub fn window(&self) -> &'a Window<N> {
+        self.window
+    }
+
+    /// Overlap in samples.
+    pub fn overlap(&self) -> usize {
+        self.framer.overlap()
+    }
+
+    /// Samples between block starts, `N - overlap`.
+    pub fn hop(&self) -> usize {
+        self.framer.hop()
+    }
+
+    /// Line spacing `fs / N`, Hz.
+    pub fn bin_width_hz(&self) -> f32 {
+        self.config.sample_rate_hz / N as f32
+    }
+}

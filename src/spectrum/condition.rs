@@ -1,0 +1,215 @@
+//! Conditioning: per-block checks (non-finite samples, overload), detrending, and the
+//! input-to-engineering-unit scaling.
+//!
+//! The checks and the block mean come from one pass over the block in input units
+//! ([`Conditioning::inspect`]). The mean is subtracted in the same pass that applies the
+//! window, and the sensitivity is applied to the *averaged* power when a spectrum is read
+//! (as `sensitivity^2`): scaling is linear, so this gives the same levels as scaling every
+//! sample, costs nothing per block, and keeps the accumulator in input units where its range
+//! is bounded by [`MAX_INPUT_MAGNITUDE`].
+
+use crate::error::ConfigError;
+
+/// Samples with a magnitude at or beyond this (input units) are treated like NaN and
+/// infinity: the block is rejected and counted as non-finite. Below it, an `N <= 4096` block
+/// cannot overflow the `f32` transform or its power (`(2 * 1e15 * 4096)^2 < 3.4e38`).
+pub const MAX_INPUT_MAGNITUDE: f32 = 1e15;
+
+/// What is removed from each block before windowing.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Detrend {
+    /// Nothing: DC stays in bin 0 (and leaks into the low lines through the window).
+    None,
+    /// The block mean (SciPy's `detrend='constant'`, its default): bin 0 reads about 0.
+    #[default]
+    Mean,
+}
+
+/// What happens to a block with a sample at or beyond full scale.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum OverloadPolicy {
+    /// Keep it out of the average (the default): a clipped block spreads false harmonics and
+    /// broadband energy over the spectrum, and a clean average is worth more than one more block.
+    #[default]
+    Reject,
+    /// Average it anyway (it is still counted as overloaded).
+    Average,
+}
+
+/// The outcome of [`Conditioning::inspect`] for one block.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct BlockCheck {
+    /// Some sample is NaN, infinite, or at least [`MAX_INPUT_MAGNITUDE`] in magnitude.
+    pub non_finite: bool,
+    /// Some sample has `|x| >= full_scale` (an infinity counts; NaN does not). Always false
+    /// without a full scale.
+    pub overloaded: bool,
+    /// The value to subtract from every sample: the block mean for [`Detrend::Mean`] (only
+    /// meaningful when `non_finite` is false), else 0.
+    pub offset: f32,
+}
+
+/// The validated conditioning settings.
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Conditioning {
+    detrend: Detrend,
+    sensitivity: f32,
+    full_scale: Option<f32>,
+    overload: OverloadPolicy,
+}
+
+impl Conditioning {
+    /// Checks the settings: `sensitivity` (engineering units per input unit) finite and
+    /// non-zero (a negative one flips polarity, which no power spectrum sees); `full_scale`
+    /// (input units) finite and > 0 when given.
+    pub fn new(
+        detrend: Detrend,
+        sensitivity: f32,
+        full_scale: Option<f32>,
+        overload: OverloadPolicy,
+    ) -> Result<Self, ConfigError> {
+        if !sensitivity.is_finite() || sensitivity == 0.0 {
+            return Err(ConfigError::Sensitivity);
+        }
+        if let Some(fs) = full_scale {
+            if !(fs.is_finite() && fs > 0.0) {
+                return Err(ConfigError::FullScale);
+            }
+        }
+        Ok(Self {
+            detrend,
+            sensitivity,
+            full_scale,
+            overload,
+        })
+    }
+
+    /// The detrend setting.
+    pub fn detrend(&self) -> Detrend {
+        self.detrend
+    }
+
+    /// Engineering units per input unit.
+    pub fn sensitivity(&self) -> f32 {
+        self.sensitivity
+    }
+
+    /// The overload limit in input units, if any.
+    pub fn full_scale(&self) -> Option<f32> {
+        self.full_scale
+    }
+
+    /// The overload policy.
+    pub fn overload_policy(&self) -> OverloadPolicy {
+        self.overload
+    }
+
+    /// One pass over a block in input units: the checks and the offset to remove.
+    pub fn inspect(&self, block: &[f32]) -> BlockCheck {
+        let mut sum = 0.0f32;
+        let mut non_finite = false;
+        let mut overloaded = false;
+        match self.full_scale {
+            Some(limit) => {
+                for &x in block {
+                    let magnitude = x.abs();
+                    non_finite |= out_of_range(magnitude);
+                    overloaded |= magnitude >= limit;
+                    sum += x;
+                }
+            }
+            None => {
+                for &x in block {
+                    non_finite |= out_of_range(x.abs());
+                    sum += x;
+                }
+            }
+        }
+        let offset = match self.detrend {
+            Detrend::Mean if !non_finite && !block.is_empty() => sum / block.len() as f32,
+            _ => 0.0,
+        };
+        BlockCheck {
+            non_finite,
+            overloaded,
+            offset,
+        }
+    }
+
+    /// Whether a block with this check enters the average.
+    pub fn accepts(&self, check: &BlockCheck) -> bool {
+        let overload_rejects = check.overloaded && self.overload == OverloadPolicy::Reject;
+        !(check.non_finite || overload_rejects)
+    }
+}
+
+/// NaN, an infinity, or a magnitude at or beyond [`MAX_INPUT_MAGNITUDE`], in one compare
+/// (`NaN < x` is false).
+#[inline(always)]
+fn out_of_range(magnitude: f32) -> bool {
+    #[allow(clippy::neg_cmp_op_on_partial_ord)]
+    let outside = !(magnitude < MAX_INPUT_MAGNITUDE);
+    outside
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn conditioning(full_scale: Option<f32>) -> Conditioning {
+        Conditioning::new(Detrend::Mean, 1.0, full_scale, OverloadPolicy::Reject).unwrap()
+    }
+
+    #[test]
+    fn non_finite_and_huge_samples_are_flagged() {
+        let c = conditioning(None);
+        for bad in [f32::NAN, f32::INFINITY, f32::NEG_INFINITY, 1e15, -3e38] {
+            let check = c.inspect(&[0.0, bad, 1.0]);
+            assert!(check.non_finite, "{bad}");
+            assert!(!c.accepts(&check));
+        }
+        let check = c.inspect(&[0.0, 9.9e14, f32::MIN_POSITIVE / 4.0]);
+        assert!(!check.non_finite && !check.overloaded && c.accepts(&check));
+    }
+
+    #[test]
+    fn overload_is_at_or_beyond_full_scale() {
+        let c = conditioning(Some(2.0));
+        assert!(!c.inspect(&[1.999, -1.999]).overloaded);
+        assert!(c.inspect(&[0.0, 2.0]).overloaded);
+        assert!(c.inspect(&[-2.0, 0.0]).overloaded);
+        assert!(c.inspect(&[f32::INFINITY]).overloaded);
+        assert!(!c.inspect(&[f32::NAN]).overloaded);
+        assert!(!c.accepts(&c.inspect(&[3.0])));
+        let keep =
+            Conditioning::new(Detrend::None, 1.0, Some(2.0), OverloadPolicy::Average).unwrap();
+        let check = keep.inspect(&[3.0]);
+        assert!(check.overloaded && keep.accepts(&check));
+    }
+
+    #[test]
+    fn mean_is_the_offset() {
+        assert_eq!(
+            conditioning(None).inspect(&[1.0, 2.0, 3.0, 6.0]).offset,
+            3.0
+        );
+        let none = Conditioning::new(Detrend::None, 1.0, None, OverloadPolicy::Reject).unwrap();
+        assert_eq!(none.inspect(&[1.0, 2.0]).offset, 0.0);
+    }
+
+    #[test]
+    fn bad_settings_are_typed_errors() {
+        let new = |s, fs| Conditioning::new(Detrend::Mean, s, fs, OverloadPolicy::Reject);
+        for s in [0.0, f32::NAN, f32::INFINITY, -f32::INFINITY] {
+            assert_eq!(new(s, None).err(), Some(ConfigError::Sensitivity));
+        }
+        for fs in [0.0, -1.0, f32::NAN, f32::INFINITY] {
+            assert_eq!(new(1.0, Some(fs)).err(), Some(ConfigError::FullScale));
+        }
+        assert!(new(-9.81, Some(1.0)).is_ok());
+    }
+}

@@ -1,0 +1,180 @@
+//! Framing: an overlap ring that turns chunks of any length into `N`-sample blocks.
+//!
+//! Blocks start every `hop = N - overlap` samples. The ring only ever sees a stream of
+//! samples, so how the stream was cut into chunks cannot change any block.
+//!
+//! ```
+//! use leakless::spectrum::frame::Framer;
+//!
+//! let mut framer: Framer<i16, 4> = Framer::new(2).unwrap(); // 4-sample blocks, 2 overlap
+//! let mut block = [0i16; 4];
+//! let mut input: &[i16] = &[1, 2, 3, 4, 5, 6];
+//! assert!(framer.next_block(&mut input, &mut block));
+//! assert_eq!(block, [1, 2, 3, 4]);
+//! assert!(framer.next_block(&mut input, &mut block));
+//! assert_eq!(block, [3, 4, 5, 6]);
+//! assert!(!framer.next_block(&mut input, &mut block)); // needs two more samples
+//! assert!(input.is_empty());
+//! ```
+
+use crate::error::ConfigError;
+
+/// An overlap ring of `N` samples of type `T` (`f32`, or `i16`/`i32` for the fixed path).
+#[derive(Clone, Debug)]
+pub struct Framer<T, const N: usize> {
+    ring: [T; N],
+    /// Index of the oldest sample.
+    head: usize,
+    /// Samples held, `0 ..= N`.
+    len: usize,
+    /// Samples kept from one block for the next, `0 ..= N - 1`.
+    overlap: usize,
+}
+
+impl<T: Copy + Default, const N: usize> Framer<T, N> {
+    /// A ring for `N`-sample blocks overlapping by `overlap` samples (`0 ..= N - 1`).
+    pub fn new(overlap: usize) -> Result<Self, ConfigError> {
+        if overlap >= N {
+            return Err(ConfigError::Overlap {
+                overlap,
+                block_len: N,
+            });
+        }
+        Ok(Self {
+            ring: [T::default(); N],
+            head: 0,
+            len: 0,
+            overlap,
+        })
+    }
+
+    /// The overlap in samples.
+    pub fn overlap(&self) -> usize {
+        self.overlap
+    }
+
+    /// Samples between the starts of consecutive blocks, `N - overlap`.
+    pub fn hop(&self) -> usize {
+        N - self.overlap
+    }
+
+    /// Samples held towards the next block.
+    pub fn buffered(&self) -> usize {
+        self.len
+    }
+
+    /// Forgets every buffered sample.
+    pub fn clear(&mut self) {
+        self.head = 0;
+        self.len = 0;
+    }
+
+    /// Takes samples from the front of `input` until a block is complete or `input` is used
+    /// up. On a complete block, copies it (oldest sample first) into `block`, keeps its last
+    /// `overlap` samples for the next one and returns `true`; `input` is advanced past what
+    /// was taken. Call it in a loop until it returns `false`.
+    pub fn next_block(&mut self, input: &mut &[T], block: &mut [T; N]) -> bool {
+        let wanted = N - self.len;
+        let take = wanted.min(input.len());
+        let (taken, rest) = input.split_at(take);
+        self.write(taken);
+        *input = rest;
+        if self.len < N {
+            return false;
+        }
+        // The ring is full, so `head` is where it wraps: oldest part first.
+        let (newer, older) = self.ring.split_at(self.head);
+        let (block_older, block_newer) = block.split_at_mut(older.len());
+        block_older.copy_from_slice(older);
+        block_newer.copy_from_slice(newer);
+        let hop = N - self.overlap;
+        self.head = (self.head + hop) % N;
+        self.len = self.overlap;
+        true
+    }
+
+    /// Appends `samples` (at most `N - len` of them) after the newest sample.
+    fn write(&mut self, samples: &[T]) {
+        let tail = (self.head + self.len) % N;
+        let first = samples.len().min(N - tail);
+        let (a, b) = samples.split_at(first);
+        self.ring[tail..tail + first].copy_from_slice(a);
+        self.ring[..b.len()].copy_from_slice(b);
+        self.len += samples.len();
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// All blocks of a stream, by the definition: block b is samples b*hop .. b*hop + N.
+    fn expected_blocks(stream: &[u32], n: usize, hop: usize) -> Vec<Vec<u32>> {
+        let mut out = Vec::new();
+        let mut start = 0;
+        while start + n <= stream.len() {
+            out.push(stream[start..start + n].to_vec());
+            start += hop;
+        }
+        out
+    }
+
+    fn blocks_with_chunks<const N: usize>(
+        stream: &[u32],
+        overlap: usize,
+        chunk: usize,
+    ) -> Vec<Vec<u32>> {
+        let mut framer: Framer<u32, N> = Framer::new(overlap).unwrap();
+        let mut block = [0; N];
+        let mut out = Vec::new();
+        for piece in stream.chunks(chunk.max(1)) {
+            let mut input = piece;
+            while framer.next_block(&mut input, &mut block) {
+                out.push(block.to_vec());
+            }
+            assert!(input.is_empty());
+        }
+        out
+    }
+
+    // from the definition of overlapped framing (Welch 1967): block b starts at b * hop.
+    #[test]
+    fn every_overlap_and_chunk_size_gives_the_defined_blocks() {
+        let stream: Vec<u32> = (0..100).collect();
+        for overlap in 0..8 {
+            let want = expected_blocks(&stream, 8, 8 - overlap);
+            for chunk in [1, 2, 3, 7, 8, 9, 17, 100] {
+                assert_eq!(
+                    blocks_with_chunks::<8>(&stream, overlap, chunk),
+                    want,
+                    "overlap {overlap}, chunk {chunk}"
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn empty_input_and_clear() {
+        let mut framer: Framer<f32, 4> = Framer::new(0).unwrap();
+        let mut block = [0.0; 4];
+        let mut input: &[f32] = &[];
+        assert!(!framer.next_block(&mut input, &mut block));
+        let mut input: &[f32] = &[1.0, 2.0];
+        assert!(!framer.next_block(&mut input, &mut block));
+        assert_eq!(framer.buffered(), 2);
+        framer.clear();
+        assert_eq!(framer.buffered(), 0);
+    }
+
+    #[test]
+    fn overlap_of_n_is_an_error() {
+        assert_eq!(
+            Framer::<f32, 4>::new(4).err(),
+            Some(ConfigError::Overlap {
+                overlap: 4,
+                block_len: 4
+            })
+        );
+        assert_eq!(Framer::<f32, 4>::new(3).unwrap().hop(), 1);
+    }
+}

@@ -1,0 +1,14 @@
+//! Block spectra: framing, conditioning, scaling, averaging, and the analyzer that strings
+//! them together.
+//!
+//! ```text
+//! samples -> frame -> condition -> window -> transform -> |X|^2 -> average -> scale (on read)
+//! ```
+
+pub mod average;
+pub mod condition;
+pub mod frame;
+pub mod scale;
+
+#[cfg(feature = "f32")]
+pub mod analyzer;
