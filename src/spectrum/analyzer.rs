@@ -232,10 +232,22 @@ pub struct Status {
 /// # Memory
 ///
 /// No allocation: `core::mem::size_of::<Analyzer<N, BINS>>()` is the whole RAM cost. It owns
-/// the overlap ring (`4 N` bytes), the work block (`4 N`) and the power accumulator
-/// (`4 BINS`), plus about 100 bytes of settings and counters; the window table stays where
-/// the window is (flash, for a `static`). At `N = 1024` that is 10 360 bytes on a 64-bit host
-/// and less on a 32-bit target (the buffers alone are 10 244).
+/// the overlap buffer (`4 N` bytes), the work block (`4 N`) and the power accumulator
+/// (`4 BINS`), plus about 120 bytes of settings and counters; the window table stays where
+/// the window is (flash, for a `static`).
+///
+/// | `N` | buffers | `size_of`, thumbv7em (32-bit) | `size_of`, x86_64 |
+/// |---|---|---|---|
+/// | 1024 | 10 244 | 10 360 (+1.1 %) | 10 400 |
+///
+/// (Measured with a `const` array of that length on each target, rustc 1.95.)
+///
+/// # Cost per block
+///
+/// Outside the FFT, three O(N) passes: check and mean, detrend and window, `|X|^2` into the
+/// average; scaling to levels happens only when a spectrum is read. On an x86-64 host at
+/// `N = 1024` the whole pipeline measured 1.08 to 1.12 times a bare `microfft::rfft_1024` of
+/// a copied block (best of 15 runs of 1280 blocks, on a shared machine).
 ///
 /// # Example
 ///
