@@ -19,7 +19,8 @@
 //!
 //! | feature | default | what it adds |
 //! |---|---|---|
-//! | `f32` | yes | the floating-point transform (over `microfft`) and analyzer |
+//! | `f32` | yes | the floating-point transform (over `microfft`) and analyzer, N = 64 |
+//! | `size-128` ... `size-4096` | `size-4096` | f32 transforms up to that N (chained: each includes the smaller; fewer means less flash) |
 //! | `fixed` | no | Q15/Q31 transforms and analyzer; no float on the hot path |
 //! | `defmt` | no | `defmt::Format` for the public types, for firmware logs |
 //! | `std` | no | host helpers only; the core never needs it |

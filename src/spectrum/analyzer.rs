@@ -220,7 +220,8 @@ pub struct Status {
 ///
 /// # Generics
 ///
-/// * `N`: block length, a power of two from 64 to 4096 (compile-time checked).
+/// * `N`: block length, a power of two from 64 to 4096 whose `size-N` feature is enabled
+///   (compile-time checked; see [`crate::fft::float`]).
 /// * `BINS`: `N / 2 + 1` (compile-time checked; stable Rust cannot compute it in a type).
 ///
 /// ```compile_fail
