@@ -21,7 +21,8 @@ pub enum ConfigError {
     OverlapFraction,
     /// A linear average needs a count of at least 1; an exponential one a time constant >= 1.
     AverageCount,
-    /// The sensitivity (engineering units per input unit) must be finite and non-zero.
+    /// The sensitivity (engineering units per input unit) must be finite and non-zero, with a
+    /// magnitude in `1e-9 ..= 1e9` (`spectrum::condition::SENSITIVITY_RANGE`).
     Sensitivity,
     /// The full-scale (overload) limit must be finite and greater than zero.
     FullScale,
@@ -49,7 +50,9 @@ impl fmt::Display for ConfigError {
             ),
             Self::OverlapFraction => f.write_str("overlap fraction must be in 0.0..1.0"),
             Self::AverageCount => f.write_str("average count / time constant must be >= 1"),
-            Self::Sensitivity => f.write_str("sensitivity must be finite and non-zero"),
+            Self::Sensitivity => {
+                f.write_str("sensitivity must be finite, with magnitude in 1e-9..=1e9")
+            }
             Self::FullScale => f.write_str("full scale must be finite and > 0"),
             Self::WindowParameter => f.write_str("window parameter out of range"),
             Self::Frequency => f.write_str("frequency out of range"),

@@ -66,8 +66,8 @@ pub struct Config {
     pub averaging: Averaging,
     /// What is removed from each block before windowing. Default: the mean.
     pub detrend: Detrend,
-    /// Engineering units per input unit (per count for [`Analyzer::push_counts`]): finite,
-    /// non-zero. Default: 1.
+    /// Engineering units per input unit (per count for [`Analyzer::push_counts`]), magnitude
+    /// in [`SENSITIVITY_RANGE`](crate::spectrum::condition::SENSITIVITY_RANGE). Default: 1.
     pub sensitivity: f32,
     /// Overload limit in input units (a block with any `|x| >= full_scale` is overloaded):
     /// finite and > 0, or `None` for no check. Default: `None`.
@@ -293,7 +293,8 @@ pub struct Analyzer<'a, const N: usize, const BINS: usize> {
 
 impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
     /// An analyzer over `window` (borrowed: the table stays in flash) with `config`, or the
-    /// first setting that cannot work.
+    /// first setting that cannot work ([`ConfigError::WindowParameter`] for a window whose
+    /// coherent gain is not above 1e-6, which no level could be corrected for).
     pub fn new(window: &'a Window<N>, config: Config) -> Result<Self, ConfigError> {
         const {
             assert!(is_supported(N), "N must be a power of two from 64 to 4096");
@@ -301,6 +302,12 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
         }
         if !(config.sample_rate_hz.is_finite() && config.sample_rate_hz > 0.0) {
             return Err(ConfigError::SampleRate);
+        }
+        // Every level divides by the window's sums; a user cosine sum can make them (nearly)
+        // zero. Real windows have a coherent gain above 0.05.
+        let factors = window.factors();
+        if !(factors.coherent_gain > 1e-6 && factors.mean_square_gain > 1e-12) {
+            return Err(ConfigError::WindowParameter);
         }
         let overlap = config.overlap.samples(N)?;
         let framer = Framer::new(overlap)?;

@@ -15,6 +15,11 @@ use crate::error::ConfigError;
 /// cannot overflow the `f32` transform or its power (`(2 * 1e15 * 4096)^2 < 3.4e38`).
 pub const MAX_INPUT_MAGNITUDE: f32 = 1e15;
 
+/// The magnitudes of sensitivity accepted: wide enough for any sensor (counts to g is about
+/// 1e-4, volts to m/s^2 about 1e2), narrow enough that the read-out scaling of a valid block
+/// stays inside the `f32` range instead of underflowing to zero.
+pub const SENSITIVITY_RANGE: core::ops::RangeInclusive<f32> = 1e-9..=1e9;
+
 /// What is removed from each block before windowing.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -63,16 +68,16 @@ pub struct Conditioning {
 }
 
 impl Conditioning {
-    /// Checks the settings: `sensitivity` (engineering units per input unit) finite and
-    /// non-zero (a negative one flips polarity, which no power spectrum sees); `full_scale`
-    /// (input units) finite and > 0 when given.
+    /// Checks the settings: `sensitivity` (engineering units per input unit) with a magnitude
+    /// in [`SENSITIVITY_RANGE`] (a negative one flips polarity, which no power spectrum sees);
+    /// `full_scale` (input units) finite and > 0 when given.
     pub fn new(
         detrend: Detrend,
         sensitivity: f32,
         full_scale: Option<f32>,
         overload: OverloadPolicy,
     ) -> Result<Self, ConfigError> {
-        if !sensitivity.is_finite() || sensitivity == 0.0 {
+        if !SENSITIVITY_RANGE.contains(&sensitivity.abs()) {
             return Err(ConfigError::Sensitivity);
         }
         if let Some(fs) = full_scale {
@@ -246,12 +251,13 @@ mod tests {
     #[test]
     fn bad_settings_are_typed_errors() {
         let new = |s, fs| Conditioning::new(Detrend::Mean, s, fs, OverloadPolicy::Reject);
-        for s in [0.0, f32::NAN, f32::INFINITY, -f32::INFINITY] {
+        for s in [0.0, f32::NAN, f32::INFINITY, -f32::INFINITY, 1e-10, -2e9] {
             assert_eq!(new(s, None).err(), Some(ConfigError::Sensitivity));
         }
         for fs in [0.0, -1.0, f32::NAN, f32::INFINITY] {
             assert_eq!(new(1.0, Some(fs)).err(), Some(ConfigError::FullScale));
         }
         assert!(new(-9.81, Some(1.0)).is_ok());
+        assert!(new(1e-9, None).is_ok() && new(-1e9, None).is_ok());
     }
 }
