@@ -23,6 +23,8 @@ import scipy.signal as ss
 
 PINNED = {"numpy": "2.4.6", "scipy": "1.17.1", "cmsisdsp": "1.10.3", "mpmath": "1.3.0"}
 GENERATOR = "tests/reference/generate.py"
+# Parts in generation order; each gen_* function registers itself below its definition.
+PARTS = {}
 
 
 def check_versions():
@@ -130,10 +132,105 @@ def gen_math(out):
     )
 
 
+PARTS["math"] = gen_math
+
+
+# ---------------------------------------------------------------------------------------------
+# 2. Windows: scipy.signal.get_window golden vectors, one CSV per (symmetry, N)
+
+# Cosine-sum coefficients as published (a_0, a_1, ...), REFERENCES.md section 1.1.
+GENERAL_COSINE = {
+    "exact-blackman": [7938.0 / 18608.0, 9240.0 / 18608.0, 1430.0 / 18608.0],
+    "hft70": [1.0, 1.90796, 1.07349, 0.18199],
+    "hft90d": [1.0, 1.942604, 1.340318, 0.440811, 0.043097],
+    "hft95": [1.0, 1.9383379, 1.3045202, 0.4028270, 0.0350665],
+    "hft116d": [1.0, 1.9575375, 1.4780705, 0.6367431, 0.1228389, 0.0066288],
+    "hft144d": [1.0, 1.96760033, 1.57983607, 0.81123644, 0.22583558, 0.02773848, 0.00090360],
+}
+# Our shape name -> scipy get_window argument. Parametric shapes are named as
+# leakless::Shape::from_name parses them ("kaiser:BETA", "tukey:ALPHA", "exponential:END"),
+# with the parameter printed by Python repr (shortest string that round-trips the f64).
+SCIPY_NAMED = [
+    ("rectangular", "boxcar"),
+    ("hann", "hann"),
+    ("hamming", "hamming"),
+    ("blackman", "blackman"),
+    ("exact-blackman", None),
+    ("blackman-harris-92", "blackmanharris"),
+    ("nuttall", "nuttall"),
+    ("flattop", "flattop"),
+    ("hft70", None),
+    ("hft90d", None),
+    ("hft95", None),
+    ("hft116d", None),
+    ("hft144d", None),
+]
+KAISER_BETAS = [3.0 * math.pi, 8.6]
+TUKEY_ALPHAS = [0.5, 0.25]
+EXP_END = 0.01  # exponential: decays to this fraction at the last sample
+
+
+def window_columns(n, periodic, subset=None):
+    """[(column name, scipy call description, float64 vector)] for one (N, symmetry)."""
+    fft = bool(periodic)
+    cols = []
+    for ours, name in SCIPY_NAMED:
+        if name is not None:
+            w = ss.get_window(name, n, fftbins=fft)
+            desc = f"get_window('{name}', {n}, fftbins={fft})"
+        else:
+            a = GENERAL_COSINE[ours]
+            w = ss.get_window(("general_cosine", a), n, fftbins=fft) / math.fsum(a)
+            desc = f"get_window(('general_cosine', {a}), {n}, fftbins={fft}) / sum(a_k) = {math.fsum(a)!r}"
+        cols.append((ours, desc, w))
+    for beta in KAISER_BETAS:
+        cols.append((f"kaiser:{beta!r}", f"get_window(('kaiser', {beta!r}), {n}, fftbins={fft})",
+                     ss.get_window(("kaiser", beta), n, fftbins=fft)))
+    for alpha in TUKEY_ALPHAS:
+        cols.append((f"tukey:{alpha!r}", f"get_window(('tukey', {alpha!r}), {n}, fftbins={fft})",
+                     ss.get_window(("tukey", alpha), n, fftbins=fft)))
+    if periodic:  # scipy's exponential with center 0 exists only with sym=False
+        tau = -(n - 1) / math.log(EXP_END)
+        cols.append((f"exponential:{EXP_END!r}",
+                     f"get_window(('exponential', 0, tau), {n}, fftbins=True), tau = -(N-1)/ln({EXP_END!r}) = {tau!r}",
+                     ss.get_window(("exponential", 0, tau), n, fftbins=True)))
+    if subset is not None:
+        cols = [c for c in cols if c[0] in subset]
+    for name, _, w in cols:
+        assert w.dtype == np.float64 and w.shape == (n,), name
+    return cols
+
+
+WINDOW_SETS = [(True, 16, None), (False, 16, None), (True, 64, None), (False, 64, None),
+               (True, 1024, None), (False, 1024, None),
+               (True, 4096, {"hann", "flattop", "blackman-harris-92", "hft90d", "hft144d",
+                             f"kaiser:{3.0 * math.pi!r}"})]
+
+
+def window_file_name(periodic, n):
+    return f"windows/{'periodic' if periodic else 'symmetric'}_{n}.csv"
+
+
+def gen_windows(out):
+    for periodic, n, subset in WINDOW_SETS:
+        cols = window_columns(n, periodic, subset)
+        comments = [
+            f"source: scipy {scipy.__version__} scipy.signal.get_window (numpy {np.__version__}), float64, %.17g",
+            f"N = {n}, {'periodic (DFT-even, fftbins=True)' if periodic else 'symmetric (fftbins=False)'}",
+            "column n = sample index 0..N-1; one column per shape, named by leakless Shape::from_name",
+            "general_cosine shapes are divided by sum(a_k) so their peak is 1 (leakless convention);",
+            "scipy's own flattop is stored as scipy returns it (its a_k sum to 1.000000003, so its peak is 1.000000003)",
+        ] + [f"{name}: {desc}" for name, desc, _ in cols]
+        rows = [[str(i)] + [f64(w[i]) for _, _, w in cols] for i in range(n)]
+        write_csv(out, window_file_name(periodic, n), comments, ["n"] + [c[0] for c in cols], rows)
+
+
+PARTS["windows"] = gen_windows
+
+
 # ---------------------------------------------------------------------------------------------
 # main
 
-PARTS = {}
 
 
 def main():
@@ -142,9 +239,7 @@ def main():
     ap.add_argument("--only", nargs="*", help="generate only these parts (default: all)")
     args = ap.parse_args()
     check_versions()
-    parts = {"math": gen_math}
-    parts.update(PARTS)
-    for name, fn in parts.items():
+    for name, fn in PARTS.items():
         if not args.only or name in args.only:
             fn(args.out)
 
