@@ -352,6 +352,100 @@ PARTS["window_factors"] = gen_factors
 
 
 # ---------------------------------------------------------------------------------------------
+# 4. Spectra: scipy.signal.welch and periodogram of one seeded float32 record
+
+SPEC_SEED = 20260101
+SPEC_FS = 1024.0
+SPEC_LEN = 4096
+SPEC_DC = 0.3
+SPEC_SIGMA = 0.1
+SPEC_TONES = [(1.0, 100.0), (0.05, 213.7)]  # (amplitude, Hz): 100 Hz is on a bin for both lengths
+
+
+def spectra_signal():
+    """float32-exact record, returned as float64, plus the phases used."""
+    rng = np.random.default_rng(SPEC_SEED)
+    noise = rng.standard_normal(SPEC_LEN)
+    phases = rng.uniform(0.0, 2.0 * np.pi, len(SPEC_TONES))
+    t = np.arange(SPEC_LEN) / SPEC_FS
+    x = SPEC_DC + SPEC_SIGMA * noise
+    for (amp, f), ph in zip(SPEC_TONES, phases):
+        x = x + amp * np.sin(2.0 * np.pi * f * t + ph)
+    x32 = x.astype(np.float32)
+    for v in x32:  # the text form must read back as exactly this float32
+        assert np.float32(float(f32(v))) == v
+    return x32.astype(np.float64), phases
+
+
+def spectra_cases():
+    cases = []
+    for window in ("hann", "flattop"):
+        for noverlap in (0, 128, 192):
+            for detrend in ("constant", False):
+                for scaling in ("density", "spectrum"):
+                    cases.append(("welch", window, 256, noverlap, detrend, scaling))
+    for window in ("boxcar", "hann"):
+        for detrend in ("constant", False):
+            for scaling in ("density", "spectrum"):
+                cases.append(("periodogram", window, SPEC_LEN, 0, detrend, scaling))
+    return cases
+
+
+def gen_spectra(out):
+    x, phases = spectra_signal()
+    tone_txt = " + ".join(f"{a!r} sin(2 pi {f!r} t + {float(p)!r})" for (a, f), p in zip(SPEC_TONES, phases))
+    write_csv(
+        out,
+        "spectra_input.csv",
+        [
+            f"source: numpy {np.__version__} numpy.random.default_rng({SPEC_SEED}): noise = standard_normal({SPEC_LEN}), then",
+            f"  phases = uniform(0, 2 pi, {len(SPEC_TONES)}); t = n / fs, fs = {SPEC_FS!r} Hz",
+            f"x = {SPEC_DC!r} + {SPEC_SIGMA!r} * noise + {tone_txt}",
+            "computed in float64, then rounded to float32 (numpy astype); printed with %.9g, which reads back",
+            "  as exactly that float32 (parse as f32, or as f64 then cast to f32)",
+            "spectra.csv is computed from these float32 values converted to float64",
+        ],
+        ["n", "x"],
+        [[str(i), f32(np.float32(v))] for i, v in enumerate(x)],
+    )
+    case_rows, rows = [], []
+    for cid, (func, window, nperseg, noverlap, detrend, scaling) in enumerate(spectra_cases()):
+        if func == "welch":
+            f, p = ss.welch(x, SPEC_FS, window=window, nperseg=nperseg, noverlap=noverlap,
+                            detrend=detrend, scaling=scaling, return_onesided=True, average="mean")
+        else:
+            f, p = ss.periodogram(x, SPEC_FS, window=window, detrend=detrend, scaling=scaling,
+                                  return_onesided=True)
+        segments = (len(x) - noverlap) // (nperseg - noverlap)  # whole segments only
+        _, t, _ = ss.spectrogram(x, SPEC_FS, window=window, nperseg=nperseg, noverlap=noverlap)
+        assert len(t) == segments, (cid, len(t), segments)
+        assert len(p) == nperseg // 2 + 1 and p.dtype == np.float64
+        det = "constant" if detrend == "constant" else "none"
+        case_rows.append([str(cid), func, window, str(nperseg), str(noverlap), det, scaling,
+                          str(segments), f64(SPEC_FS), str(len(p))])
+        for k in range(len(p)):
+            rows.append([str(cid), str(k), f64(f[k]), f64(p[k])])
+    common = [
+        f"source: scipy {scipy.__version__} scipy.signal.welch / scipy.signal.periodogram (numpy {np.__version__}), float64",
+        "input: spectra_input.csv (float32 samples as float64), fs = 1024 Hz, 4096 samples",
+        "welch(x, fs, window=W, nperseg=256, noverlap=O, detrend=D, scaling=S, return_onesided=True, average='mean')",
+        "periodogram(x, fs, window=W, detrend=D, scaling=S, return_onesided=True) (nperseg = 4096, noverlap 0)",
+        "W is a get_window name (periodic, fftbins=True); detrend 'none' means detrend=False",
+        "segments = (len(x) - noverlap) // (nperseg - noverlap), whole segments only (checked against scipy.signal.spectrogram)",
+    ]
+    write_csv(out, "spectra_cases.csv", common,
+              ["case", "function", "window", "nperseg", "noverlap", "detrend", "scaling", "segments",
+               "fs_hz", "bins"], case_rows)
+    write_csv(out, "spectra.csv", common + [
+        "one row per (case, bin): f_hz = bin * fs / nperseg as scipy returns it; value in V^2/Hz (density)",
+        "  or V^2 (spectrum, i.e. squared rms per line); one-sided: bins 1..nperseg/2-1 doubled, DC and Nyquist not",
+    ], ["case", "bin", "f_hz", "value"], rows)
+
+
+PARTS["spectra"] = gen_spectra
+
+
+# ---------------------------------------------------------------------------------------------
 # main
 
 
