@@ -446,6 +446,116 @@ PARTS["spectra"] = gen_spectra
 
 
 # ---------------------------------------------------------------------------------------------
+# 5. Fixed-point real FFTs: CMSIS-DSP arm_rfft_q15 / arm_rfft_q31 (PyPI cmsisdsp)
+
+CMSIS_SEED = 15031
+CMSIS_SIZES = (256, 1024, 4096)
+CMSIS_LEVELS_DBFS = (-1.0, -41.0)  # tone 1 level; tone 2 is 60 dB below tone 1
+TONE2_REL_DB = -60.0
+
+
+def quantise(v, bits):
+    """Round half away from zero, then saturate, to a signed `bits`-bit integer (as int64)."""
+    scale = float(2 ** (bits - 1))
+    s = v * scale  # exact: a power-of-two scale
+    r = np.where(s >= 0.0, np.floor(s + 0.5), -np.floor(-s + 0.5))
+    return np.clip(r, -scale, scale - 1.0).astype(np.int64)
+
+
+def cmsis_rfft(kind, n, q):
+    import cmsisdsp as dsp
+
+    if kind == "q15":
+        s = dsp.arm_rfft_instance_q15()
+        assert dsp.arm_rfft_init_q15(s, n, 0, 1) == 0
+        y = dsp.arm_rfft_q15(s, q.astype(np.int16).copy())
+    else:
+        s = dsp.arm_rfft_instance_q31()
+        assert dsp.arm_rfft_init_q31(s, n, 0, 1) == 0
+        y = dsp.arm_rfft_q31(s, q.astype(np.int32).copy())
+    y = np.asarray(y).astype(np.int64)
+    return y, len(y)
+
+
+def db_ratio(a, b):
+    return 20.0 * math.log10(a / b) if a > 0.0 else -math.inf
+
+
+def gen_cmsis(out):
+    import cmsisdsp as dsp
+
+    rng = np.random.default_rng(CMSIS_SEED)
+    phases = {n: rng.uniform(0.0, 2.0 * np.pi, 2) for n in CMSIS_SIZES}
+    data_rows, summary = [], []
+    cid = 0
+    for n in CMSIS_SIZES:
+        k1, k2 = 0.1 * n + 0.37, 0.3 * n + 0.21
+        idx = np.arange(n)
+        w = ss.get_window("hann", n, fftbins=True)
+        for level in CMSIS_LEVELS_DBFS:
+            a1 = 10.0 ** (level / 20.0)
+            a2 = a1 * 10.0 ** (TONE2_REL_DB / 20.0)
+            ph1, ph2 = phases[n]
+            xw = (a1 * np.sin(2.0 * np.pi * k1 * idx / n + ph1)
+                  + a2 * np.sin(2.0 * np.pi * k2 * idx / n + ph2)) * w
+            for kind, bits in (("q15", 16), ("q31", 32)):
+                full = float(2 ** (bits - 1))
+                q = quantise(xw, bits)
+                assert np.all(np.abs(q) < full - 1), "input must not saturate"
+                y, out_len = cmsis_rfft(kind, n, q)
+                y = y[: n + 2]
+                c = (y[0::2] + 1j * y[1::2]) / full  # Q1.15 / Q1.31 reading = X[k] / N
+                ref = np.fft.rfft(q / full) / n  # float64 DFT of the same quantised input, / N
+                ref_total = np.fft.rfft(xw) / n  # ... of the unquantised windowed signal
+                err = c - ref
+                snr = 10.0 * math.log10(np.sum(np.abs(ref) ** 2) / np.sum(np.abs(err) ** 2))
+                snr_total = 10.0 * math.log10(np.sum(np.abs(ref_total) ** 2)
+                                              / np.sum(np.abs(c - ref_total) ** 2))
+                lo1, lo2 = int(math.floor(k1)) - 2, int(math.floor(k2)) - 2
+                p1 = lo1 + int(np.argmax(np.abs(ref[lo1: lo1 + 6])))
+                p2 = lo2 + int(np.argmax(np.abs(ref[lo2: lo2 + 6])))
+                summary.append([
+                    str(cid), kind, str(n), f64(level), f64(k1), f64(a1), f64(ph1), f64(k2), f64(a2),
+                    f64(ph2), str(out_len), f64(snr), f64(snr_total), str(p1),
+                    f64(db_ratio(abs(c[p1]), abs(ref[p1]))), str(p2),
+                    f64(db_ratio(abs(c[p2]), abs(ref[p2]))), f64(np.mean(err.real) * full),
+                ])
+                for i in range(n + 2):
+                    data_rows.append([str(cid), str(i), str(int(q[i])) if i < n else "", str(int(y[i]))])
+                cid += 1
+    src = (f"source: cmsisdsp {dsp.__version__} (PyPI, CMSIS-DSP Python wrapper, has_neon() = {dsp.has_neon()}): "
+           "arm_rfft_init_q15(S, N, 0, 1) + arm_rfft_q15, arm_rfft_init_q31(S, N, 0, 1) + arm_rfft_q31")
+    sig = [
+        f"signal (numpy {np.__version__}, scipy {scipy.__version__}, float64): x[n] = (a1 sin(2 pi k1 n/N + ph1) + a2 sin(2 pi k2 n/N + ph2)) * w[n]",
+        "  w = scipy.signal.get_window('hann', N) (periodic); k1 = 0.1 N + 0.37, k2 = 0.3 N + 0.21 (bins, off-bin);",
+        f"  a1 = 10^(level_dbfs/20), a2 = a1 * 10^({TONE2_REL_DB!r}/20); ph1, ph2 = numpy.random.default_rng({CMSIS_SEED}).uniform(0, 2 pi, 2)",
+        "  drawn once per N in the order N = 256, 1024, 4096 (the same phases for both levels and both types)",
+        "  quantised: round(x * 2^15) (Q15) or round(x * 2^31) (Q31), half away from zero, saturated (never reached)",
+    ]
+    write_csv(out, "cmsis_fixed.csv", [src] + sig + [
+        "one row per (case, index), index 0..N+1; case parameters in cmsis_fixed_summary.csv",
+        "input: the quantised int16 (q15) or int32 (q31) sample, empty for index N and N+1",
+        "output: the first N+2 int values CMSIS writes (the scalar build writes 2N: the full spectrum),",
+        "  interleaved re, im of X[0], X[1] .. X[N/2]; output / 2^15 (q15) or / 2^31 (q31) = X[k] / N (REFERENCES.md 3.1)",
+    ], ["case", "index", "input", "output"], data_rows)
+    write_csv(out, "cmsis_fixed_summary.csv", [src] + sig + [
+        "reference: float64 numpy.fft.rfft of the same quantised input (read as Q1.15 / Q1.31), divided by N",
+        "cmsis: output / 2^15 or / 2^31 as complex bins 0..N/2; error = cmsis - reference",
+        "snr_db = 10 log10(sum |reference|^2 / sum |error|^2) over bins 0..N/2",
+        "snr_total_db: the same against numpy.fft.rfft(unquantised windowed float64 x) / N",
+        "tone1_peak_bin / tone2_peak_bin: bin of largest |reference| among floor(k)-2 .. floor(k)+3",
+        "tone*_level_error_db = 20 log10(|cmsis| / |reference|) at that bin (-inf: CMSIS gives exactly 0 there)",
+        "error_mean_re_lsb = mean over bins 0..N/2 of Re(error), in output LSBs (2^-15 or 2^-31)",
+        "output_len: number of values arm_rfft_* returned (2N in this build)",
+    ], ["case", "type", "n", "level_dbfs", "tone1_bin", "tone1_amplitude", "tone1_phase", "tone2_bin",
+        "tone2_amplitude", "tone2_phase", "output_len", "snr_db", "snr_total_db", "tone1_peak_bin",
+        "tone1_level_error_db", "tone2_peak_bin", "tone2_level_error_db", "error_mean_re_lsb"], summary)
+
+
+PARTS["cmsis"] = gen_cmsis
+
+
+# ---------------------------------------------------------------------------------------------
 # main
 
 
