@@ -556,6 +556,99 @@ PARTS["cmsis"] = gen_cmsis
 
 
 # ---------------------------------------------------------------------------------------------
+# 6. spectra_examples.csv: REFERENCES.md section 2.2 examples A-D, recomputed
+
+def examples_rows():
+    fs, n = 1024.0, 1024
+    t = np.arange(n) / fs
+    rows = []  # (example, quantity, value, value printed in REFERENCES.md 2.2)
+
+    def add(ex, q, v, printed):
+        rows.append((ex, q, float(v), printed))
+
+    w = ss.get_window("hann", n)
+    for ex, f0 in (("A", 100.0), ("B", 100.5)):
+        x = np.sin(2.0 * np.pi * f0 * t)
+        mag = np.abs(np.fft.rfft(x * w))
+        _, ps = ss.periodogram(x, fs, window="hann", scaling="spectrum")
+        _, pd = ss.periodogram(x, fs, window="hann", scaling="density")
+        band = slice(90, 111) if ex == "A" else slice(91, 111)  # 90..110 Hz / 100.5 +- 10 Hz
+        if ex == "A":
+            for k, m, s, d in ((100, "256.000000", "0.500000", "0.333333"), (101, "128.000000", "0.125000", "0.083333")):
+                add(ex, f"hann_abs_rfft_bin{k}", mag[k], m)
+                add(ex, f"hann_amplitude_corrected_bin{k}", 2 * mag[k] / w.sum(), "1.000000" if k == 100 else "0.500000")
+                add(ex, f"hann_periodogram_spectrum_bin{k}", ps[k], s)
+                add(ex, f"hann_periodogram_density_bin{k}", pd[k], d)
+            add(ex, "hann_density_times_df_sum_bins90to110", pd[band].sum() * (fs / n), "0.500000")
+            add(ex, "hann_spectrum_sum_bins90to110", ps[band].sum(), "0.750000")
+        else:
+            add(ex, "hann_abs_rfft_bin100", mag[100], "217.2995")
+            add(ex, "hann_abs_rfft_bin101", mag[101], "217.2995")
+            add(ex, "hann_amplitude_corrected_bin100", 2 * mag[100] / w.sum(), "0.848826")
+            add(ex, "hann_periodogram_spectrum_bin100", ps[100], "0.360253")
+            add(ex, "hann_periodogram_density_bin100", pd[100], "0.240169")
+            add(ex, "hann_density_times_df_sum_bins91to110", pd[band].sum() * (fs / n), "0.500000")
+            for name, win, printed in (("rectangular", "boxcar", "0.638001"), ("hann", "hann", "0.848826"),
+                                       ("hamming", "hamming", "0.817593"), ("blackman-harris-92", "blackmanharris", "0.909330"),
+                                       ("flattop", "flattop", "0.998878"), ("hft90d", None, "0.999551")):
+                if win is None:
+                    a = GENERAL_COSINE[name]
+                    ww = ss.get_window(("general_cosine", a), n) / math.fsum(a)
+                else:
+                    ww = ss.get_window(win, n)
+                m = np.abs(np.fft.rfft(x * ww))
+                add(ex, f"{name}_peak_amplitude_corrected", 2 * max(m[100], m[101]) / ww.sum(), printed)
+    # C: white noise
+    sigma, big = 0.1, 524288
+    x = sigma * np.random.default_rng(12345).standard_normal(big)
+    f, pd = ss.welch(x, fs, window="hann", nperseg=1024, noverlap=512)
+    _, ps = ss.welch(x, fs, window="hann", nperseg=1024, noverlap=512, scaling="spectrum")
+    add("C", "segments", (big - 512) // 512, "1023")
+    add("C", "mean_density_bins1to511", pd[1:512].mean(), "1.946813e-05")
+    add("C", "density_bin512", pd[512], "9.816e-06")
+    add("C", "density_times_df_sum", pd.sum() * (f[1] - f[0]), "0.009962")
+    add("C", "mean_spectrum_bins1to511", ps[1:512].mean(), "2.920219e-05")
+    add("C", "band_rms_10to100hz", math.sqrt(pd[10:101].sum() * (f[1] - f[0])), "0.042227")
+    # D: DC and Nyquist, boxcar periodogram, 'spectrum'
+    x = 0.3 + np.sin(2.0 * np.pi * 100.0 * t)
+    _, p_c = ss.periodogram(x, fs, window="boxcar", scaling="spectrum")
+    _, p_n = ss.periodogram(x, fs, window="boxcar", scaling="spectrum", detrend=False)
+    add("D", "bin0_detrend_constant", p_c[0], "0.000000")
+    add("D", "bin0_detrend_none", p_n[0], "0.090000")
+    add("D", "bin100_detrend_constant", p_c[100], "0.500000")
+    add("D", "bin100_detrend_none", p_n[100], "0.500000")
+    _, p_q = ss.periodogram((-1.0) ** np.arange(n), fs, window="boxcar", scaling="spectrum")
+    add("D", "alternating_bin512", p_q[512], "1.000000")
+    return rows
+
+
+def gen_examples(out):
+    rows = examples_rows()
+    for ex, q, v, printed in rows:
+        mant = printed.split("e")[0]
+        digits = len(mant.split(".")[1]) if "." in mant else 0
+        unit = 10.0 ** (-digits) * (10.0 ** int(printed.split("e")[1]) if "e" in printed else 1.0)
+        # One unit of the last printed digit: the sheet prints "217.2995 each" for B's two bins,
+        # which are 217.299539 and 217.299559 (the negative-frequency image makes them differ).
+        if abs(v - float(printed)) > unit * (1 + 1e-9):
+            sys.exit(f"examples: {ex} {q} = {v!r} is not within one last-digit unit of REFERENCES.md 2.2's {printed}")
+    write_csv(out, "spectra_examples.csv", [
+        f"source: scipy {scipy.__version__} scipy.signal.periodogram / welch / get_window, numpy {np.__version__} numpy.fft.rfft,",
+        "  float64; REFERENCES.md section 2.2 examples A-D recomputed (the generator checks that each value is",
+        "  within one unit of the last digit of the figure printed there, column printed)",
+        "fs = 1024 Hz. A: x = sin(2 pi 100 t), N = 1024, periodic Hann (sum w = 512). B: the same at 100.5 Hz;",
+        "  *_peak_amplitude_corrected = 2 max(|X[100]|, |X[101]|) / sum w for that window (hft90d divided by sum a_k)",
+        "C: x = 0.1 * numpy.random.default_rng(12345).standard_normal(524288), welch(nperseg=1024, noverlap=512,",
+        "  window='hann'), density unless named spectrum; band_rms = sqrt(sum density[10..100] * df)",
+        "D: periodogram(window='boxcar', scaling='spectrum'), N = 1024, x = 0.3 + sin(2 pi 100 t); alternating: x = (-1)^n",
+        "quantity names: binK = rfft/periodogram bin K (1 Hz each in A, B, D)",
+    ], ["example", "quantity", "value", "printed"], [[e, q, f64(v), p] for e, q, v, p in rows])
+
+
+PARTS["examples"] = gen_examples
+
+
+# ---------------------------------------------------------------------------------------------
 # main
 
 
