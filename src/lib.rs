@@ -32,9 +32,11 @@
     clippy::std_instead_of_alloc
 )]
 
+pub mod analysis;
 pub mod error;
 pub mod math;
 pub mod window;
 
+pub use analysis::bearing::{BearingGeometry, DefectFrequencies, DefectOrders};
 pub use error::ConfigError;
 pub use window::{Factors, Shape, Symmetry, Window, WindowQ15};
