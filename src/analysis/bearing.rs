@@ -79,20 +79,17 @@ impl BearingGeometry {
         if balls == 0 {
             return Err(ConfigError::BallCount);
         }
-        // Written as `!(x > 0)` so that NaN fails too.
-        if !pitch_diameter_mm.is_finite() || !(pitch_diameter_mm > 0.0) {
+        // `is_finite` first: it rejects NaN, which every comparison would let through.
+        if !pitch_diameter_mm.is_finite() || pitch_diameter_mm <= 0.0 {
             return Err(ConfigError::PitchDiameter);
         }
         if !ball_diameter_mm.is_finite()
-            || !(ball_diameter_mm > 0.0)
-            || !(ball_diameter_mm < pitch_diameter_mm)
+            || ball_diameter_mm <= 0.0
+            || ball_diameter_mm >= pitch_diameter_mm
         {
             return Err(ConfigError::BallDiameter);
         }
-        if !contact_angle_deg.is_finite()
-            || !(contact_angle_deg >= 0.0)
-            || !(contact_angle_deg < 90.0)
-        {
+        if !contact_angle_deg.is_finite() || contact_angle_deg < 0.0 || contact_angle_deg >= 90.0 {
             return Err(ConfigError::ContactAngle);
         }
         Ok(Self {
@@ -145,7 +142,7 @@ impl BearingGeometry {
     /// [`ConfigError::ShaftSpeed`] if `shaft_hz` is not finite or is negative. Zero is allowed
     /// (a stopped machine: every frequency is 0).
     pub fn defect_frequencies(&self, shaft_hz: f64) -> Result<DefectFrequencies, ConfigError> {
-        if !shaft_hz.is_finite() || !(shaft_hz >= 0.0) {
+        if !shaft_hz.is_finite() || shaft_hz < 0.0 {
             return Err(ConfigError::ShaftSpeed);
         }
         let orders = self.defect_orders();
