@@ -64,9 +64,10 @@
 //! # How it is generated, and what it costs
 //!
 //! Sample after sample, with no state but a few words, so the stream is the same however it is
-//! cut into calls (tested), and the same on the host and on a microcontroller (the arithmetic
-//! is integer plus IEEE f32 add and multiply, which every target rounds alike; `libm` is used
-//! only once per impact and at construction).
+//! cut into calls (tested). It should also be the same on the host and on a microcontroller:
+//! the arithmetic is integer plus IEEE f32 add and multiply, which every target rounds alike,
+//! and `libm` is plain Rust, used once per impact and per sample for the converter's rounding.
+//! That has not yet been compared on a board or in QEMU.
 //!
 //! * Tones: a 32-bit phase accumulator per tone (frequency resolution 25.6 kHz / 2^32 = 6 uHz)
 //!   into a 1024-point sine table (4 KiB of flash) with linear interpolation. Its error is at
@@ -80,9 +81,9 @@
 //!   16-bit halves: nearly Gaussian (Irwin-Hall of 4), exactly known variance, bounded at
 //!   +-3.46 sigma. The sequence repeats after 2^31 samples, 23 hours.
 //!
-//! About 35 f32 operations a sample. On a Cortex-M4F that is a few hundred cycles; on a
-//! Cortex-M0+ the float is in software, perhaps 1500-2500 cycles a sample, so there it fills
-//! a block for analysis rather than keeping up with 25.6 kHz in real time.
+//! About 35 f32 operations a sample. Estimated, not measured: on a Cortex-M4F a few hundred
+//! cycles; on a Cortex-M0+, where float is done in software, perhaps 1500-2500 cycles a
+//! sample, so there it fills a block for analysis rather than keeping up with 25.6 kHz.
 //!
 //! ```
 //! use leakless::demo::PumpScenario;
