@@ -15,6 +15,12 @@
 //! assert!((HANN.factors().enbw_bins - 1.5).abs() < 1e-12);
 //! ```
 //!
+//! Spectra come from an [`Analyzer`] (feature `f32`): push samples in chunks of any length,
+//! read a [`Spectrum`] on any [`Scale`] at any time. Levels are one-sided (lines
+//! `1 ..= N/2 - 1` carry their negative-frequency image, DC and Nyquist do not), in
+//! engineering units (input times sensitivity), and carry the window [`Correction`] they were
+//! read with; [`spectrum::scale`] tabulates every factor.
+//!
 //! ## Optional features
 //!
 //! | feature | default | what it adds |
