@@ -139,13 +139,18 @@ pub fn rescale(values: &mut [f32], from: LineGains, to: LineGains) {
     let last = values.len().saturating_sub(1);
     for (k, v) in values.iter_mut().enumerate() {
         let factor = if k == 0 || k == last { edge } else { interior };
-        let power = if from.amplitude { *v * *v } else { *v };
-        let scaled = power * factor;
-        *v = if to.amplitude {
-            libm::sqrtf(scaled)
-        } else {
-            scaled
-        };
+        *v = rescale_line(*v, factor, from.amplitude, to.amplitude);
+    }
+}
+
+/// One line of [`rescale`]: to power, times the gain ratio, back to amplitude if wanted.
+fn rescale_line(value: f32, factor: f32, from_amplitude: bool, to_amplitude: bool) -> f32 {
+    let power = if from_amplitude { value * value } else { value };
+    let scaled = power * factor;
+    if to_amplitude {
+        libm::sqrtf(scaled)
+    } else {
+        scaled
     }
 }
 
@@ -339,6 +344,29 @@ impl<const BINS: usize> Spectrum<BINS> {
         let mut out = self.clone();
         out.convert(scale, correction);
         out
+    }
+
+    /// The energy-corrected mean square of line `bin` in units^2 (0 past the last line):
+    /// the quantity whose sum over lines is the power in a band, whatever the scale, window or
+    /// where a tone falls between lines. Same gains as [`rescale`].
+    pub fn line_mean_square(&self, bin: usize) -> f32 {
+        let Some(&value) = self.values.get(bin) else {
+            return 0.0;
+        };
+        let from = self.gains();
+        let to = LineGains::of(
+            Scale::Power,
+            Correction::Energy,
+            &self.info.factors,
+            self.info.sample_rate_hz,
+            self.info.block_len,
+        );
+        let factor = if bin == 0 || bin + 1 == BINS {
+            to.edge / from.edge
+        } else {
+            to.interior / from.interior
+        };
+        rescale_line(value, factor as f32, from.amplitude, false)
     }
 
     /// Converts in place (through [`rescale`]).
