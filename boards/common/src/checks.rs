@@ -66,6 +66,20 @@ impl Checks {
         self.failed
     }
 
+    /// Logs the stack high-water mark and checks that the stack stayed clear of the statics
+    /// (needs [`crate::stack::paint`] at the start of `main`).
+    pub fn stack(&mut self) {
+        let (used, size) = crate::stack::high_water();
+        defmt::info!(
+            "stack: {=u32} of {=u32} bytes used (high-water mark)",
+            used,
+            size
+        );
+        // The bottom word still painted means the stack never reached the statics; a stack
+        // that did would have overwritten them without any fault.
+        self.check("stack stayed clear of the statics", used < size);
+    }
+
     /// Logs the tally and ends the run: exit 0 if every check passed, 1 if any failed or if
     /// no check ran at all (an empty self-check proves nothing).
     pub fn report(&self) -> ! {

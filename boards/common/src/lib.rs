@@ -6,6 +6,7 @@
 //! * [`exit`]: the exit codes the host sees, the panic handler and the HardFault handler.
 //! * [`stages`]: the stages timed on every board.
 //! * [`selfcheck`]: the firmware self-check (for now a windowed test tone through microfft).
+//! * [`stack`]: stack high-water mark, to see what a board has left of its RAM.
 //!
 //! Everything here assumes a single core and QEMU with semihosting enabled; the real boards
 //! use defmt-rtt and panic-probe instead.
@@ -15,4 +16,5 @@ pub mod checks;
 pub mod count;
 pub mod exit;
 pub mod selfcheck;
+pub mod stack;
 pub mod stages;

@@ -7,7 +7,7 @@
 
 use board_common::checks::Checks;
 use board_common::selfcheck::N;
-use board_common::{count, exit, selfcheck, stages};
+use board_common::{count, exit, selfcheck, stack, stages};
 use cortex_m as _; // its critical-section implementation must be linked
 use cortex_m_rt::entry;
 use defmt_semihosting as _; // the global defmt logger: frames over semihosting to stdout
@@ -18,6 +18,7 @@ const CORE_CLOCK_HZ: u32 = 25_000_000;
 
 #[entry]
 fn main() -> ! {
+    stack::paint();
     let Some(peripherals) = cortex_m::Peripherals::take() else {
         panic!("core peripherals already taken");
     };
@@ -35,6 +36,7 @@ fn main() -> ! {
     selfcheck::run(&mut checks, &mut block);
 
     force_exit_paths(&mut checks);
+    checks.stack();
     checks.report()
 }
 
