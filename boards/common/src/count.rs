@@ -122,13 +122,12 @@ pub extern "C" fn bench_stop() {
     mark(2);
 }
 
-/// Runs `f` and returns its result and the instructions it took.
-///
-/// Pass the data `f` works on through [`core::hint::black_box`] so that the compiler cannot
-/// compute it outside the region.
-pub fn measure_value<R>(f: impl FnOnce() -> R) -> (R, u32) {
+/// One measured region: the result of `f`, the region's index in the run (the plugin numbers
+/// regions the same way), and the instructions it took.
+fn region<R>(f: impl FnOnce() -> R) -> (R, u32, u32) {
     let hz = u64::from(clock_hz());
-    REGIONS.store(REGIONS.load(Ordering::Relaxed) + 1, Ordering::Relaxed);
+    let index = REGIONS.load(Ordering::Relaxed);
+    REGIONS.store(index.wrapping_add(1), Ordering::Relaxed);
     let t0 = now_ticks();
     bench_start();
     let result = core::hint::black_box(f());
@@ -136,10 +135,25 @@ pub fn measure_value<R>(f: impl FnOnce() -> R) -> (R, u32) {
     let t1 = now_ticks();
     // 1 instruction = 1 ns of virtual time under -icount shift=0.
     let instructions = (t1 - t0) * 1_000_000_000 / hz;
-    (result, u32::try_from(instructions).unwrap_or(u32::MAX))
+    (
+        result,
+        index,
+        u32::try_from(instructions).unwrap_or(u32::MAX),
+    )
 }
 
-/// Runs `f` and returns the instructions it took (within [`resolution`]).
+/// Runs `f` and returns its result and the instructions it took (within [`resolution`];
+/// saturates at `u32::MAX`).
+///
+/// Pass the data `f` works on through [`core::hint::black_box`] so that the compiler cannot
+/// compute it outside the region. Regions do not nest: the plugin would restart its count at
+/// the inner start and close at the inner stop.
+pub fn measure_value<R>(f: impl FnOnce() -> R) -> (R, u32) {
+    let (result, _, instructions) = region(f);
+    (result, instructions)
+}
+
+/// Runs `f` and returns the instructions it took, as [`measure_value`].
 pub fn measure(f: impl FnOnce()) -> u32 {
     measure_value(f).1
 }
@@ -148,8 +162,7 @@ pub fn measure(f: impl FnOnce()) -> u32 {
 /// position in the run, which `boards/tools/insn-count/count.sh` uses to pair the line with
 /// the plugin's exact count.
 pub fn stage_value<R>(name: &str, f: impl FnOnce() -> R) -> (R, u32) {
-    let (result, instructions) = measure_value(f);
-    let index = REGIONS.load(Ordering::Relaxed) - 1;
+    let (result, index, instructions) = region(f);
     defmt::info!("insns[{=u32}] {=str}: {=u32}", index, name, instructions);
     (result, instructions)
 }

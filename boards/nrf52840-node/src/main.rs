@@ -140,6 +140,9 @@ async fn fill(
             .min(raw.len() / WORD_BYTES)
             .min(N - filled);
         if words == 0 {
+            // INT1 high with an empty FIFO should not happen; back off rather than spin and
+            // starve the analysis task.
+            Timer::after_millis(1).await;
             continue;
         }
         let bytes = &mut raw[..words * WORD_BYTES];
