@@ -15,7 +15,7 @@ ROOT=$(cd "$(dirname "$0")/.." && pwd)
 # dir would move the ELFs, so neither may leak in from the main CI.
 unset RUSTFLAGS CARGO_ENCODED_RUSTFLAGS CARGO_TARGET_DIR CARGO_BUILD_TARGET
 BOARDS=(qemu-m4 qemu-m0 nrf52840-node)
-step() { printf '\n== %s\n' "$*"; }
+step() { printf '\n== %s  [%ds]\n' "$*" "$SECONDS"; }
 
 step "tools"
 if ! command -v qemu-system-arm >/dev/null; then
@@ -88,4 +88,4 @@ if [ $rc -ne 1 ]; then
 fi
 echo "force-fail exited 1 as expected"
 echo
-echo "boards: all passed"
+echo "boards: all passed in ${SECONDS}s"
