@@ -33,6 +33,7 @@
 )]
 
 pub mod error;
+pub mod fft;
 pub mod math;
 pub mod window;
 

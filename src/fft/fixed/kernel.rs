@@ -1,0 +1,320 @@
+//! The block-floating-point real FFT, written once and instantiated for Q15 and Q31.
+//!
+//! Data words `D` (i16 / i32) are widened to `W` (i32 / i64) for every sum and product.
+//! `FRAC` is the twiddle scale (twiddles are `round(2^FRAC w)`, clamped to `+-(2^FRAC - 1)`).
+//!
+//! # Why nothing overflows
+//!
+//! Let `P` be the largest `|component|` of a stage's input (`P <= 2^FRAC`).
+//!
+//! * Products: `|b| < 2^(FRAC+1)` per component (split stage sums of two words) and
+//!   `|w| <= 2^FRAC - 1` per component, so each single product is `< 2^(2 FRAC + 1)`, which
+//!   fits `W` (`2 FRAC + 1 = 31` resp. `63` bits); the sum of two products is bounded by the
+//!   complex magnitude `|b| |w| <= sqrt(2) 2^FRAC |b|_max`, and it is formed at a scale
+//!   (`>> 1` in the butterflies, `>> 2` in the split stage) where it and the added `a` term
+//!   stay below `2.42 * 2^(2 FRAC - 1)`, resp. `2^(2 FRAC - 2) * 2.42 * 2`.
+//! * Outputs: a butterfly output component is at most `|a| + |w b| <= P (1 + sqrt(2) |w|)`,
+//!   and `|w| <= 1 + 2^-15` after rounding, so the growth is below [`GROWTH_BOUND`]. The split
+//!   stage has the same bound (`|E| <= P` per component, `|W O| <= sqrt(2) P |w|`). A stage
+//!   therefore shifts by the smallest `s` in `0..=2` with `P * GROWTH_BOUND <= MAX * 2^s`;
+//!   `s = 2` covers every input, since `2^FRAC * 2.42 / 4 < MAX`.
+//! * The first stage (the first two radix-2 stages fused, twiddles `1` and `-j` only) adds four
+//!   words exactly, so its outputs are at most `4 P`, and its shift is chosen from that exact
+//!   bound; that shift may be negative (a left shift, exact) to normalise a quiet block up.
+//!
+//! # Rounding
+//!
+//! Sums of words whose twiddle is `1` or `-j` are exact integers, and halving them hits an
+//! exact half every other time: those are rounded half to even, so they have no bias.
+//! Products keep `FRAC - 1` fraction bits before rounding (half up); an exact half there has
+//! probability about `2^-(FRAC-1)`, so its bias is far below a thousandth of an LSB.
+
+/// `1 + sqrt(2) (1 + 2^-15)` rounded up: the largest growth of any component in one stage.
+/// As a ratio of integers so that the thresholds are computed exactly: 2.41426.
+const GROWTH_NUM: i64 = 241_426;
+const GROWTH_DEN: i64 = 100_000;
+
+macro_rules! real_fft_kernel {
+    ($D:ty, $W:ty, $UW:ty, $FRAC:expr) => {
+        use super::{GROWTH_DEN, GROWTH_NUM};
+
+        type D = $D;
+        type W = $W;
+        type UW = $UW;
+
+        /// Twiddle scale, in bits.
+        const FRAC: u32 = $FRAC;
+        const MAX: W = <D>::MAX as W;
+        /// Largest stage-input peak that needs no shift: `P * growth <= MAX`.
+        const NO_SHIFT_PEAK: UW = ((MAX as i64 * GROWTH_DEN) / GROWTH_NUM) as UW;
+        /// Largest stage-input peak that needs one bit of shift.
+        const ONE_SHIFT_PEAK: UW = 2 * NO_SHIFT_PEAK;
+        /// Largest normalisation up in one stage after the first (which normalises the input
+        /// fully); it keeps at least 6 fraction bits below the rounding point of the products.
+        const MAX_UP_SHIFT: i32 = 8;
+
+        /// `v * 2^-shift` for an exact sum: a left shift (exact) for `shift < 0`, else a right
+        /// shift rounding half to even (no bias on the exact halves that sums produce).
+        #[inline(always)]
+        fn scale_exact(v: W, shift: i32) -> W {
+            if shift <= 0 {
+                return v << (-shift) as u32;
+            }
+            let shift = shift as u32;
+            let odd = (v >> shift) & 1;
+            (v + (1 << (shift - 1)) - 1 + odd) >> shift
+        }
+
+        /// The shift a stage needs for an input peak `peak` (see the module doc): 1 or 2 when
+        /// the outputs could overflow, 0 when they cannot, negative (a normalisation up) while
+        /// even twice the outputs could not.
+        #[inline(always)]
+        fn stage_shift(peak: UW) -> i32 {
+            if peak > ONE_SHIFT_PEAK {
+                2
+            } else if peak > NO_SHIFT_PEAK {
+                1
+            } else {
+                let mut shift = 0;
+                while shift > -MAX_UP_SHIFT
+                    && peak != 0
+                    && peak << (1 - shift) as u32 <= NO_SHIFT_PEAK
+                {
+                    shift -= 1;
+                }
+                shift
+            }
+        }
+
+        /// Stores a value the bounds above keep inside `D`, and returns its magnitude.
+        #[inline(always)]
+        fn store(slot: &mut D, v: W) -> UW {
+            debug_assert!(v >= <D>::MIN as W && v <= MAX, "stage bound violated: {v}");
+            *slot = v as D;
+            v.unsigned_abs()
+        }
+
+        /// Forward real FFT in place; returns the block exponent (see `fixed::rfft_q15`).
+        pub(crate) fn rfft<const N: usize>(data: &mut [D; N], cos: &[D; N]) -> i32 {
+            let points = N / 2;
+            let input_peak = data
+                .iter()
+                .map(|&x| (x as W).unsigned_abs())
+                .max()
+                .unwrap_or(0);
+            if input_peak == 0 {
+                return 0;
+            }
+            // The fused first stage sums four words: choose its shift (possibly negative,
+            // i.e. a normalisation up) so that 4 * peak fits.
+            let grown = 4 * input_peak;
+            let mut first_shift: i32 = 0;
+            while grown > (MAX as UW) << first_shift {
+                first_shift += 1;
+            }
+            if first_shift == 0 {
+                while grown << (-first_shift + 1) <= MAX as UW {
+                    first_shift -= 1;
+                }
+            }
+            bit_reverse(data, points);
+            let mut peak = first_stage(data, first_shift);
+            let mut exponent = first_shift;
+            let mut half = 4;
+            while half < points {
+                let shift = stage_shift(peak);
+                peak = radix2_stage(data, cos, half, shift);
+                exponent += shift;
+                half *= 2;
+            }
+            exponent + split(data, cos)
+        }
+
+        /// Reorders the `points` complex words (re, im pairs) into bit-reversed order.
+        fn bit_reverse<const N: usize>(data: &mut [D; N], points: usize) {
+            let mut j = 0;
+            for i in 0..points - 1 {
+                if i < j {
+                    data.swap(2 * i, 2 * j);
+                    data.swap(2 * i + 1, 2 * j + 1);
+                }
+                // increment j in reversed bit order
+                let mut bit = points >> 1;
+                while j & bit != 0 {
+                    j ^= bit;
+                    bit >>= 1;
+                }
+                j |= bit;
+            }
+        }
+
+        /// The first two radix-2 stages (twiddles 1 and -j), exact in `W`, then one rounding
+        /// by `shift` (negative: exact left shift). Returns the output peak.
+        fn first_stage<const N: usize>(data: &mut [D; N], shift: i32) -> UW {
+            let mut peak = 0;
+            for g in data.chunks_exact_mut(8) {
+                let z = |i: usize| (g[2 * i] as W, g[2 * i + 1] as W);
+                let (z0, z1, z2, z3) = (z(0), z(1), z(2), z(3));
+                let a0 = (z0.0 + z1.0, z0.1 + z1.1);
+                let a1 = (z0.0 - z1.0, z0.1 - z1.1);
+                let a2 = (z2.0 + z3.0, z2.1 + z3.1);
+                let a3 = (z2.0 - z3.0, z2.1 - z3.1);
+                let out = [
+                    a0.0 + a2.0,
+                    a0.1 + a2.1,
+                    a1.0 + a3.1,
+                    a1.1 - a3.0,
+                    a0.0 - a2.0,
+                    a0.1 - a2.1,
+                    a1.0 - a3.1,
+                    a1.1 + a3.0,
+                ];
+                for (slot, v) in g.iter_mut().zip(out) {
+                    peak = peak.max(store(slot, scale_exact(v, shift)));
+                }
+            }
+            peak
+        }
+
+        /// One radix-2 decimation-in-time stage of butterflies `half` apart, scaled down by
+        /// `shift` bits. Returns the output peak.
+        fn radix2_stage<const N: usize>(
+            data: &mut [D; N],
+            cos: &[D; N],
+            half: usize,
+            shift: i32,
+        ) -> UW {
+            let points = N / 2;
+            let span = 2 * half;
+            let mut peak = 0;
+            // k = 0 (twiddle 1) and k = half/2 (twiddle -j): exact sums, rounded to even.
+            let mut g = 0;
+            while g < points {
+                let (i, j) = (2 * g, 2 * (g + half));
+                let (ar, ai, br, bi) = (
+                    data[i] as W,
+                    data[i + 1] as W,
+                    data[j] as W,
+                    data[j + 1] as W,
+                );
+                peak = peak.max(store(&mut data[i], scale_exact(ar + br, shift)));
+                peak = peak.max(store(&mut data[i + 1], scale_exact(ai + bi, shift)));
+                peak = peak.max(store(&mut data[j], scale_exact(ar - br, shift)));
+                peak = peak.max(store(&mut data[j + 1], scale_exact(ai - bi, shift)));
+                let (i, j) = (i + half, j + half);
+                let (ar, ai, br, bi) = (
+                    data[i] as W,
+                    data[i + 1] as W,
+                    data[j] as W,
+                    data[j + 1] as W,
+                );
+                // (-j) b = (bi, -br)
+                peak = peak.max(store(&mut data[i], scale_exact(ar + bi, shift)));
+                peak = peak.max(store(&mut data[i + 1], scale_exact(ai - br, shift)));
+                peak = peak.max(store(&mut data[j], scale_exact(ar - bi, shift)));
+                peak = peak.max(store(&mut data[j + 1], scale_exact(ai + br, shift)));
+                g += span;
+            }
+            // The other twiddles: w = cos - j sin of 2 pi k / span, read from the N-point table.
+            let stride = N / span;
+            let out_shift = (FRAC as i32 - 1 + shift) as u32;
+            let rounding: W = 1 << (out_shift - 1);
+            for k in (1..half).filter(|&k| 2 * k != half) {
+                let wr = cos[k * stride] as W;
+                let wi = cos[k * stride + N / 4] as W; // cos(x + pi/2) = -sin(x)
+                let mut g = k;
+                while g < points {
+                    let (i, j) = (2 * g, 2 * (g + half));
+                    let (br, bi) = (data[j] as W, data[j + 1] as W);
+                    let pr = (br * wr - bi * wi) >> 1;
+                    let pi = (br * wi + bi * wr) >> 1;
+                    let ar = ((data[i] as W) << (FRAC - 1)) + rounding;
+                    let ai = ((data[i + 1] as W) << (FRAC - 1)) + rounding;
+                    peak = peak.max(store(&mut data[i], (ar + pr) >> out_shift));
+                    peak = peak.max(store(&mut data[i + 1], (ai + pi) >> out_shift));
+                    peak = peak.max(store(&mut data[j], (ar - pr) >> out_shift));
+                    peak = peak.max(store(&mut data[j + 1], (ai - pi) >> out_shift));
+                    g += span;
+                }
+            }
+            peak
+        }
+
+        /// Turns the N/2-point complex spectrum Z of the even/odd-interleaved input into the
+        /// real input's spectrum X[0..=N/2], packed (X[0].re, X[N/2].re, X[1].re, X[1].im, ..).
+        /// Returns the shift it applied.
+        ///
+        /// With A = Z[k], B = Z[N/2 - k]: E = (A + conj B) / 2, O = (A - conj B) / 2j,
+        /// X[k] = E + W^k O and X[N/2 - k] = conj(E - W^k O), W = exp(-2 pi j / N).
+        ///
+        /// Being the last stage, it is worth running twice: once to find the peak of its
+        /// exact outputs, once to store them with the smallest shift that fits. The output
+        /// then uses the full word instead of the worst-case headroom of a stage, which is
+        /// up to one more bit of resolution for the spectrum.
+        fn split<const N: usize>(data: &mut [D; N], cos: &[D; N]) -> i32 {
+            let points = N / 2;
+            let mid = points; // word index of complex point N/4
+            let (r0, i0) = (data[0] as W, data[1] as W);
+            let (rm, im) = (data[mid] as W, data[mid + 1] as W);
+            // X[0] = Re Z0 + Im Z0, X[N/2] = Re Z0 - Im Z0, X[N/4] = conj Z[N/4]: exact.
+            let exact = [r0 + i0, r0 - i0, rm, -im];
+            let mut peak = exact.iter().map(|v| v.unsigned_abs()).max().unwrap_or(0) << (FRAC - 1);
+            for k in 1..points / 2 {
+                for v in split_pair(data, cos, k) {
+                    peak = peak.max(v.unsigned_abs());
+                }
+            }
+            // Smallest shift with |X| * 2^-shift <= MAX; outputs are at 2^(FRAC-1) here.
+            let mut shift = -MAX_UP_SHIFT;
+            while shift < 2 && peak > (MAX as UW) << (FRAC as i32 - 1 + shift) as u32 {
+                shift += 1;
+            }
+            for (slot, v) in [0, 1, mid, mid + 1].into_iter().zip(exact) {
+                store(&mut data[slot], scale_exact(v, shift));
+            }
+            let out_shift = (FRAC as i32 - 1 + shift) as u32;
+            let rounding: W = 1 << (out_shift - 1);
+            for k in 1..points / 2 {
+                let (a, b) = (2 * k, 2 * (points - k));
+                let out = split_pair(data, cos, k);
+                for (slot, v) in [a, a + 1, b, b + 1].into_iter().zip(out) {
+                    store(&mut data[slot], (v + rounding) >> out_shift);
+                }
+            }
+            shift
+        }
+
+        /// `X[k]` and `X[N/2 - k]` (re, im, re, im) at the scale `2^(FRAC-1)`, from the words
+        /// of `Z[k]` and `Z[N/2 - k]`, for `0 < k < N/4`.
+        ///
+        /// 2E and 2O are exact in `W`; X = (2E + W 2O) / 2, with W 2O formed at 2^(FRAC-2)
+        /// from products shifted separately (see the bounds in the module doc).
+        #[inline(always)]
+        fn split_pair<const N: usize>(data: &[D; N], cos: &[D; N], k: usize) -> [W; 4] {
+            let points = N / 2;
+            let (a, b) = (2 * k, 2 * (points - k));
+            let (ar, ai, br, bi) = (
+                data[a] as W,
+                data[a + 1] as W,
+                data[b] as W,
+                data[b + 1] as W,
+            );
+            let (er, ei) = ((ar + br) << (FRAC - 2), (ai - bi) << (FRAC - 2));
+            let (or, oi) = (ai + bi, br - ar);
+            let wr = cos[k] as W;
+            let wi = cos[k + N / 4] as W; // cos(x + pi/2) = -sin(x)
+            let qr = ((or * wr) >> 2) - ((oi * wi) >> 2);
+            let qi = ((or * wi) >> 2) + ((oi * wr) >> 2);
+            // Im X[N/2-k] = -(Im 2E - Im W 2O) / 2
+            [er + qr, ei + qi, er - qr, qi - ei]
+        }
+    };
+}
+
+pub(crate) mod q15 {
+    real_fft_kernel!(i16, i32, u32, 15);
+}
+
+pub(crate) mod q31 {
+    real_fft_kernel!(i32, i64, u64, 31);
+}

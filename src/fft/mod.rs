@@ -1,0 +1,4 @@
+//! Real FFTs: one module per arithmetic.
+
+#[cfg(feature = "fixed")]
+pub mod fixed;
