@@ -46,9 +46,9 @@ macro_rules! real_fft_kernel {
         const FRAC: u32 = $FRAC;
         const MAX: W = <D>::MAX as W;
         /// Largest stage-input peak that needs no shift: `P * growth <= MAX`.
-        const NO_SHIFT_PEAK: UW = ((MAX as i64 * GROWTH_DEN) / GROWTH_NUM) as UW;
+        pub(super) const NO_SHIFT_PEAK: UW = ((MAX as i64 * GROWTH_DEN) / GROWTH_NUM) as UW;
         /// Largest stage-input peak that needs one bit of shift.
-        const ONE_SHIFT_PEAK: UW = 2 * NO_SHIFT_PEAK;
+        pub(super) const ONE_SHIFT_PEAK: UW = 2 * NO_SHIFT_PEAK;
         /// Largest normalisation up in one stage after the first (which normalises the input
         /// fully); it keeps at least 6 fraction bits below the rounding point of the products.
         const MAX_UP_SHIFT: i32 = 8;
@@ -56,7 +56,7 @@ macro_rules! real_fft_kernel {
         /// `v * 2^-shift` for an exact sum: a left shift (exact) for `shift < 0`, else a right
         /// shift rounding half to even (no bias on the exact halves that sums produce).
         #[inline(always)]
-        fn scale_exact(v: W, shift: i32) -> W {
+        pub(super) fn scale_exact(v: W, shift: i32) -> W {
             if shift <= 0 {
                 return v << (-shift) as u32;
             }
@@ -69,7 +69,7 @@ macro_rules! real_fft_kernel {
         /// the outputs could overflow, 0 when they cannot, negative (a normalisation up) while
         /// even twice the outputs could not.
         #[inline(always)]
-        fn stage_shift(peak: UW) -> i32 {
+        pub(super) fn stage_shift(peak: UW) -> i32 {
             if peak > ONE_SHIFT_PEAK {
                 2
             } else if peak > NO_SHIFT_PEAK {
@@ -317,4 +317,61 @@ pub(crate) mod q15 {
 
 pub(crate) mod q31 {
     real_fft_kernel!(i32, i64, u64, 31);
+}
+
+#[cfg(test)]
+mod tests {
+    use super::{q15, q31, GROWTH_DEN, GROWTH_NUM};
+
+    // The growth bound is at least 1 + sqrt(2) |w| for the largest rounded twiddle:
+    // |w|^2 <= (|c| + 2^-16)^2 + (|s| + 2^-16)^2 <= 1 + sqrt(2) 2^-15 + 2^-31.
+    #[test]
+    fn growth_bound_covers_rounded_twiddles() {
+        let w_max = (1.0 + 2f64.sqrt() / 32768.0 + 1.0 / 2f64.powi(31)).sqrt();
+        let growth = GROWTH_NUM as f64 / GROWTH_DEN as f64;
+        assert!(growth >= 1.0 + 2f64.sqrt() * w_max, "{growth}");
+    }
+
+    // A stage input at a threshold cannot produce an output beyond the word, and the
+    // largest shift (2) covers any input.
+    #[test]
+    fn shift_thresholds_keep_outputs_in_range() {
+        let growth = GROWTH_NUM as f64 / GROWTH_DEN as f64;
+        assert!(q15::NO_SHIFT_PEAK as f64 * growth + 0.5 < 32767.5);
+        assert!(q15::ONE_SHIFT_PEAK as f64 * growth / 2.0 + 0.5 < 32767.5);
+        assert!(32768.0 * growth / 4.0 + 0.5 < 32767.5);
+        assert!(q31::NO_SHIFT_PEAK as f64 * growth + 0.5 < 2_147_483_647.5);
+        assert!(2_147_483_648.0 * growth / 4.0 + 0.5 < 2_147_483_647.5);
+        assert_eq!((q15::stage_shift(13572), q15::stage_shift(13573)), (0, 1));
+        assert_eq!((q15::stage_shift(27144), q15::stage_shift(27145)), (1, 2));
+        assert_eq!(q15::stage_shift(32768), 2);
+        // normalising up: 6786 * 2 still needs no shift, 6787 * 2 would
+        assert_eq!((q15::stage_shift(6786), q15::stage_shift(6787)), (-1, 0));
+        assert_eq!(q15::stage_shift(1), -8);
+        assert_eq!(q15::stage_shift(0), 0);
+    }
+
+    // Round half to even on exact values: no bias over a symmetric range of inputs.
+    #[test]
+    fn scale_exact_rounds_half_to_even() {
+        let cases = [
+            (3, 1, 2),
+            (1, 1, 0),
+            (5, 1, 2),
+            (-1, 1, 0),
+            (-3, 1, -2),
+            (6, 2, 2),
+        ];
+        for (v, shift, expected) in cases {
+            assert_eq!(q15::scale_exact(v, shift), expected, "{v} >> {shift}");
+        }
+        assert_eq!((q15::scale_exact(-2, 2), q15::scale_exact(2, 2)), (0, 0));
+        assert_eq!(q15::scale_exact(-5, -2), -20);
+        for shift in 1..4 {
+            let total: i32 = (-1000..1000)
+                .map(|v| q15::scale_exact(v, shift) * (1 << shift) - v)
+                .sum();
+            assert_eq!(total, 0, "shift {shift}");
+        }
+    }
 }

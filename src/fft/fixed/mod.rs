@@ -56,17 +56,17 @@
 //!
 //! A length that is not a power of two in `64..=4096` does not compile:
 //!
-//! ```compile_fail
+//! ```compile_fail,E0080
 //! let mut data = [0i16; 100];
 //! leakless::fft::fixed::rfft_q15(&mut data); // error: N must be a power of two in 64..=4096
 //! ```
 //!
-//! ```compile_fail
+//! ```compile_fail,E0080
 //! let mut data = [0i32; 8192];
 //! leakless::fft::fixed::rfft_q31(&mut data); // error: N must be a power of two in 64..=4096
 //! ```
 //!
-//! ```compile_fail
+//! ```compile_fail,E0080
 //! let mut data = [0i16; 32];
 //! leakless::fft::fixed::rfft_q15(&mut data); // error: N must be a power of two in 64..=4096
 //! ```
@@ -156,5 +156,75 @@ fn unpack<T: Copy + Default, const N: usize>(spectrum: &[T; N], k: usize) -> Opt
         _ if k == N / 2 => Some((spectrum[1], T::default())),
         _ if k < N / 2 => Some((spectrum[2 * k], spectrum[2 * k + 1])),
         _ => None,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn bins_follow_the_packing() {
+        let spectrum: [i16; 64] = core::array::from_fn(|i| i as i16 + 1);
+        assert_eq!(bin_q15(&spectrum, 0), Some((1, 0)));
+        assert_eq!(bin_q15(&spectrum, 32), Some((2, 0)));
+        assert_eq!(bin_q15(&spectrum, 1), Some((3, 4)));
+        assert_eq!(bin_q15(&spectrum, 31), Some((63, 64)));
+        assert_eq!(bin_q15(&spectrum, 33), None);
+        let spectrum = spectrum.map(i32::from);
+        assert_eq!(bin_q31(&spectrum, 5), Some((11, 12)));
+        assert_eq!(bin_q31(&spectrum, usize::MAX), None);
+    }
+
+    // Analytic: x[n] = 64 + 4096 cos(2 pi 5 n / N) - 2048 sin(2 pi 9 n / N) has
+    // X[0] = 64 N, X[5] = 4096 N / 2, X[9] = +2048 j N / 2 and nothing else.
+    #[test]
+    fn exponent_and_packing_of_known_tones() {
+        const N: usize = 128;
+        let mut data: [i16; N] = core::array::from_fn(|n| {
+            let t = 2.0 * core::f64::consts::PI * n as f64 / N as f64;
+            (64.0 + 4096.0 * (5.0 * t).cos() - 2048.0 * (9.0 * t).sin()).round() as i16
+        });
+        let e = rfft_q15(&mut data);
+        let scale = 2f64.powi(e);
+        for k in 0..=N / 2 {
+            let (re, im) = bin_q15(&data, k).unwrap();
+            let (re, im) = (re as f64 * scale, im as f64 * scale);
+            let expected = match k {
+                0 => (64.0 * N as f64, 0.0),
+                5 => (4096.0 * N as f64 / 2.0, 0.0),
+                9 => (0.0, 2048.0 * N as f64 / 2.0),
+                _ => (0.0, 0.0),
+            };
+            // The input itself is rounded (|error| <= 0.5 per sample, up to 0.5 N per bin in
+            // the worst case, about 0.5 sqrt(N / 3) rms), plus a few output LSB.
+            let tolerance = 0.5 * N as f64 + 4.0 * scale;
+            assert!(
+                (re - expected.0).abs() <= tolerance && (im - expected.1).abs() <= tolerance,
+                "bin {k}: ({re}, {im}), expected {expected:?}"
+            );
+        }
+    }
+
+    // A quiet block is normalised up before the first stage: a negative exponent.
+    #[test]
+    fn quiet_blocks_are_normalised_up() {
+        let mut data = [0i16; 64];
+        data[0] = 3;
+        let e = rfft_q15(&mut data);
+        assert!(e < 0, "e = {e}");
+        // 3 * 4 << 11 = 24576 fits, << 12 would not: the first stage shifts up by 11.
+        assert_eq!(
+            bin_q15(&data, 0).map(|(re, _)| re as f64 * 2f64.powi(e)),
+            Some(3.0)
+        );
+        let mut data = [0i32; 64];
+        data[1] = -1;
+        let e = rfft_q31(&mut data);
+        assert!(e <= -28, "e = {e}");
+        assert_eq!(
+            bin_q31(&data, 0).map(|(re, _)| re as f64 * 2f64.powi(e)),
+            Some(-1.0)
+        );
     }
 }
