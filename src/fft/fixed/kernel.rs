@@ -3,40 +3,53 @@
 //! Data words `D` (i16 / i32) are widened to `W` (i32 / i64) for every sum and product.
 //! `FRAC` is the twiddle scale (twiddles are `round(2^FRAC w)`, clamped to `+-(2^FRAC - 1)`).
 //!
+//! # Structure
+//!
+//! The `N/2` complex points `z[m] = x[2m] + j x[2m+1]` are bit-reversed, then: one fused
+//! stage of the first two radix-2 stages (twiddles 1 and -j, no products), radix-4 stages
+//! while they fit, one radix-2 stage when `log2(N/2)` is odd, and the split stage that turns
+//! `Z = FFT(z)` into `X[0..=N/2]`.
+//!
 //! # Why nothing overflows
 //!
 //! Let `P` be the largest `|component|` of a stage's input (`P <= 2^FRAC`).
 //!
-//! * Products: `|b| < 2^(FRAC+1)` per component (split stage sums of two words) and
-//!   `|w| <= 2^FRAC - 1` per component, so each single product is `< 2^(2 FRAC + 1)`, which
-//!   fits `W` (`2 FRAC + 1 = 31` resp. `63` bits); the sum of two products is bounded by the
-//!   complex magnitude `|b| |w| <= sqrt(2) 2^FRAC |b|_max`, and it is formed at a scale
-//!   (`>> 1` in the butterflies, `>> 2` in the split stage) where it and the added `a` term
-//!   stay below `2.42 * 2^(2 FRAC - 1)`, resp. `2^(2 FRAC - 2) * 2.42 * 2`.
-//! * Outputs: a butterfly output component is at most `|a| + |w b| <= P (1 + sqrt(2) |w|)`,
-//!   and `|w| <= 1 + 2^-15` after rounding, so the growth is below [`GROWTH_BOUND`]. The split
-//!   stage has the same bound (`|E| <= P` per component, `|W O| <= sqrt(2) P |w|`). A stage
-//!   therefore shifts by the smallest `s` in `0..=2` with `P * GROWTH_BOUND <= MAX * 2^s`;
-//!   `s = 2` covers every input, since `2^FRAC * 2.42 / 4 < MAX`.
-//! * The first stage (the first two radix-2 stages fused, twiddles `1` and `-j` only) adds four
-//!   words exactly, so its outputs are at most `4 P`, and its shift is chosen from that exact
-//!   bound; that shift may be negative (a left shift, exact) to normalise a quiet block up.
+//! * Products: `|b| < 2^(FRAC+1)` per component (the split stage multiplies sums of two
+//!   words) and `|w| <= 2^FRAC - 1` per component, so each single product is below
+//!   `2^(2 FRAC + 1)` and fits `W` (31 resp. 63 bits). A sum of two products is bounded by the
+//!   complex magnitude `|b| |w| <= sqrt(2) 2^FRAC max|b|`, and it is formed at a scale where it
+//!   and the other terms fit: radix-2 `(a << (FRAC-1)) + (p >> 1) < 1.21 * 2^(2 FRAC)`;
+//!   radix-4 `(a << (FRAC-2)) + three (p >> 2) < 1.31 * 2^(2 FRAC)`; split
+//!   `(2E << (FRAC-2)) + (each product >> 2) < 2.42 * 2^(2 FRAC - 1)`.
+//! * Outputs: a radix-2 output component is at most `|a| + |w b| <= P (1 + sqrt(2) |w|)`,
+//!   and `|w| <= 1 + 2^-15` after rounding, so the growth is below `GROWTH = 2.41426`; a
+//!   radix-4 output is at most `P (1 + 3 sqrt(2) |w|)`, below `GROWTH4 = 5.2429`. The split
+//!   stage has the radix-2 bound (`|E| <= P` per component, `|W O| <= sqrt(2) P |w|`). A stage
+//!   therefore shifts by the smallest `s` with `P * growth <= MAX * 2^s`: at most 2 (radix-2)
+//!   or 3 (radix-4) for any input, and negative, a normalisation up, when the data is small.
+//! * The first stage adds four words exactly, so its outputs are at most `4 P`, and its shift
+//!   is chosen from that exact bound; it too may be negative to normalise a quiet block up.
+//! * The split stage, being last, is computed twice: the first pass finds the exact peak of
+//!   its outputs, the second stores them with the smallest shift that fits.
 //!
 //! # Rounding
 //!
-//! Sums of words whose twiddle is `1` or `-j` are exact integers, and halving them hits an
-//! exact half every other time: those are rounded half to even, so they have no bias.
-//! Products keep `FRAC - 1` fraction bits before rounding (half up); an exact half there has
-//! probability about `2^-(FRAC-1)`, so its bias is far below a thousandth of an LSB.
+//! Sums of words whose twiddle is 1 or -j are exact integers, and halving them hits an exact
+//! half every other time: those are rounded half to even, so they have no bias. Products
+//! keep `FRAC - 2` or more fraction bits before rounding (half up); an exact half there has
+//! probability about `2^-(FRAC-2)`, so its bias is far below a thousandth of an LSB. The
+//! products' own pre-shifts (`>> 1`, `>> 2`) floor at `2^-(FRAC-2)` of an LSB.
 
 /// `1 + sqrt(2) (1 + 2^-15)` rounded up: the largest growth of any component in one stage.
 /// As a ratio of integers so that the thresholds are computed exactly: 2.41426.
 const GROWTH_NUM: i64 = 241_426;
 const GROWTH_DEN: i64 = 100_000;
+/// `1 + 3 sqrt(2) (1 + 2^-15)` rounded up: the growth bound of a radix-4 stage, 5.24290.
+const GROWTH4_NUM: i64 = 524_290;
 
 macro_rules! real_fft_kernel {
     ($D:ty, $W:ty, $UW:ty, $FRAC:expr) => {
-        use super::{GROWTH_DEN, GROWTH_NUM};
+        use super::{GROWTH4_NUM, GROWTH_DEN, GROWTH_NUM};
 
         type D = $D;
         type W = $W;
@@ -47,8 +60,8 @@ macro_rules! real_fft_kernel {
         const MAX: W = <D>::MAX as W;
         /// Largest stage-input peak that needs no shift: `P * growth <= MAX`.
         pub(super) const NO_SHIFT_PEAK: UW = ((MAX as i64 * GROWTH_DEN) / GROWTH_NUM) as UW;
-        /// Largest stage-input peak that needs one bit of shift.
-        pub(super) const ONE_SHIFT_PEAK: UW = 2 * NO_SHIFT_PEAK;
+        /// The same for a radix-4 stage: `P * growth4 <= MAX`.
+        pub(super) const NO_SHIFT_PEAK_RADIX4: UW = ((MAX as i64 * GROWTH_DEN) / GROWTH4_NUM) as UW;
         /// Largest normalisation up in one stage after the first (which normalises the input
         /// fully); it keeps at least 6 fraction bits below the rounding point of the products.
         const MAX_UP_SHIFT: i32 = 8;
@@ -65,28 +78,34 @@ macro_rules! real_fft_kernel {
             (v + (1 << (shift - 1)) - 1 + odd) >> shift
         }
 
-        /// The shift a stage needs for an input peak `peak` (see the module doc): 1 or 2 when
-        /// the outputs could overflow, 0 when they cannot, negative (a normalisation up) while
-        /// even twice the outputs could not.
+        /// The shift a radix-2 stage needs for an input peak `peak` (see the module doc): 1 or
+        /// 2 when the outputs could overflow, 0 when they cannot, negative (a normalisation
+        /// up) while even twice the outputs could not.
         #[inline(always)]
         pub(super) fn stage_shift(peak: UW) -> i32 {
-            if peak > ONE_SHIFT_PEAK {
-                2
-            } else if peak > NO_SHIFT_PEAK {
-                1
-            } else {
-                let mut shift = 0;
-                while shift > -MAX_UP_SHIFT
-                    && peak != 0
-                    && peak << (1 - shift) as u32 <= NO_SHIFT_PEAK
-                {
-                    shift -= 1;
-                }
-                shift
+            shift_for(peak, NO_SHIFT_PEAK)
+        }
+
+        /// The smallest shift `s` (from `-MAX_UP_SHIFT`) with `peak <= limit * 2^s`, where
+        /// `limit` is the largest peak a stage takes unshifted. Needs `limit * 8 >= 2^FRAC`.
+        #[inline(always)]
+        fn shift_for(peak: UW, limit: UW) -> i32 {
+            let mut shift = -MAX_UP_SHIFT;
+            while shift < 0 && peak << (-shift) as u32 > limit {
+                shift += 1;
             }
+            while shift >= 0 && peak > limit << shift as u32 {
+                shift += 1;
+            }
+            shift
         }
 
         /// Stores a value the bounds above keep inside `D`, and returns its magnitude.
+        ///
+        /// The stages track the exact maximum of these. An OR of the magnitudes would be half
+        /// the work on Cortex-M0 but bounds the peak only to within a factor of 2; that lost
+        /// bit of headroom was measured to cost 1 to 3 dB and broke the small-tone target at
+        /// N = 64, so it is not done.
         #[inline(always)]
         fn store(slot: &mut D, v: W) -> UW {
             debug_assert!(v >= <D>::MIN as W && v <= MAX, "stage bound violated: {v}");
@@ -120,12 +139,18 @@ macro_rules! real_fft_kernel {
             bit_reverse(data, points);
             let mut peak = first_stage(data, first_shift);
             let mut exponent = first_shift;
-            let mut half = 4;
-            while half < points {
-                let shift = stage_shift(peak);
-                peak = radix2_stage(data, cos, half, shift);
+            // Radix-4 stages while they fit, then one radix-2 stage if log2(N/2) is odd.
+            let mut quarter = 4;
+            while 4 * quarter <= points {
+                let shift = shift_for(peak, NO_SHIFT_PEAK_RADIX4);
+                peak = radix4_stage(data, cos, quarter, shift);
                 exponent += shift;
-                half *= 2;
+                quarter *= 4;
+            }
+            if quarter < points {
+                let shift = stage_shift(peak);
+                radix2_stage(data, cos, quarter, shift);
+                exponent += shift;
             }
             exponent + split(data, cos)
         }
@@ -176,17 +201,113 @@ macro_rules! real_fft_kernel {
             peak
         }
 
-        /// One radix-2 decimation-in-time stage of butterflies `half` apart, scaled down by
-        /// `shift` bits. Returns the output peak.
-        fn radix2_stage<const N: usize>(
+        /// One radix-4 decimation-in-time stage: four length-`quarter` sub-spectra per group,
+        /// scaled down by `shift` bits. Returns the output peak.
+        ///
+        /// After radix-2 bit reversal the sub-spectra of a group lie in the order of residues
+        /// 0, 2, 1, 3, so `D1` is read from the third quarter and `D2` from the second. With
+        /// `t_r = W^(r k) D_r` (`W = exp(-2 pi j / (4 quarter))`), the outputs are
+        /// `y_q = sum_r (-j)^(q r) t_r`, written back in natural order.
+        fn radix4_stage<const N: usize>(
             data: &mut [D; N],
             cos: &[D; N],
-            half: usize,
+            quarter: usize,
             shift: i32,
         ) -> UW {
             let points = N / 2;
-            let span = 2 * half;
+            let span = 4 * quarter;
+            let q = 2 * quarter; // a quarter, in words
             let mut peak = 0;
+            // k = 0: every twiddle is 1, the sums are exact and rounded half to even.
+            for group in data[..2 * points].chunks_exact_mut(2 * span) {
+                let d0 = (group[0] as W, group[1] as W);
+                let d2 = (group[q] as W, group[q + 1] as W);
+                let d1 = (group[2 * q] as W, group[2 * q + 1] as W);
+                let d3 = (group[3 * q] as W, group[3 * q + 1] as W);
+                let y = radix4_combine(d0, d1, d2, d3);
+                for (slot, v) in [0, 1, q, q + 1, 2 * q, 2 * q + 1, 3 * q, 3 * q + 1]
+                    .into_iter()
+                    .zip(y)
+                {
+                    peak = peak.max(store(&mut group[slot], scale_exact(v, shift)));
+                }
+            }
+            // Other k: products kept at 2^(FRAC-2), summed, rounded once.
+            let stride = N / span;
+            let out_shift = (FRAC as i32 - 2 + shift) as u32;
+            let rounding: W = 1 << (out_shift - 1);
+            for k in 1..quarter {
+                let twiddle = |i: usize| (cos[i] as W, cos[i + N / 4] as W);
+                let (w1, w2, w3) = (
+                    twiddle(k * stride),
+                    twiddle(2 * k * stride),
+                    twiddle(3 * k * stride),
+                );
+                for group in data[..2 * points].chunks_exact_mut(2 * span) {
+                    let a = 2 * k;
+                    let d0 = (
+                        ((group[a] as W) << (FRAC - 2)) + rounding,
+                        ((group[a + 1] as W) << (FRAC - 2)) + rounding,
+                    );
+                    let t2 = rotate((group[a + q] as W, group[a + q + 1] as W), w2);
+                    let t1 = rotate((group[a + 2 * q] as W, group[a + 2 * q + 1] as W), w1);
+                    let t3 = rotate((group[a + 3 * q] as W, group[a + 3 * q + 1] as W), w3);
+                    let y = radix4_combine(d0, t1, t2, t3);
+                    let slots = [
+                        a,
+                        a + 1,
+                        a + q,
+                        a + q + 1,
+                        a + 2 * q,
+                        a + 2 * q + 1,
+                        a + 3 * q,
+                        a + 3 * q + 1,
+                    ];
+                    for (slot, v) in slots.into_iter().zip(y) {
+                        peak = peak.max(store(&mut group[slot], v >> out_shift));
+                    }
+                }
+            }
+            peak
+        }
+
+        /// `b * w` at the scale `2^(FRAC-2)` (each product shifted before the sum, which keeps
+        /// the sum inside `W`; see the module doc).
+        #[inline(always)]
+        fn rotate(b: (W, W), w: (W, W)) -> (W, W) {
+            (
+                ((b.0 * w.0) >> 2) - ((b.1 * w.1) >> 2),
+                ((b.0 * w.1) >> 2) + ((b.1 * w.0) >> 2),
+            )
+        }
+
+        /// The radix-4 butterfly on twiddled inputs: `y0, y1, y2, y3` as (re, im) words, for
+        /// the slots of `D0`, `D2`, `D1`, `D3` (positions 0, 1, 2, 3 quarters).
+        #[inline(always)]
+        fn radix4_combine(t0: (W, W), t1: (W, W), t2: (W, W), t3: (W, W)) -> [W; 8] {
+            let s0 = (t0.0 + t2.0, t0.1 + t2.1);
+            let s1 = (t0.0 - t2.0, t0.1 - t2.1);
+            let s2 = (t1.0 + t3.0, t1.1 + t3.1);
+            let s3 = (t1.0 - t3.0, t1.1 - t3.1);
+            // y0 = s0 + s2, y1 = s1 - j s3, y2 = s0 - s2, y3 = s1 + j s3
+            [
+                s0.0 + s2.0,
+                s0.1 + s2.1,
+                s1.0 + s3.1,
+                s1.1 - s3.0,
+                s0.0 - s2.0,
+                s0.1 - s2.1,
+                s1.0 - s3.1,
+                s1.1 + s3.0,
+            ]
+        }
+
+        /// One radix-2 decimation-in-time stage of butterflies `half` apart, scaled down by
+        /// `shift` bits. Only ever the last complex stage (the split stage finds its own peak),
+        /// so it tracks none.
+        fn radix2_stage<const N: usize>(data: &mut [D; N], cos: &[D; N], half: usize, shift: i32) {
+            let points = N / 2;
+            let span = 2 * half;
             // k = 0 (twiddle 1) and k = half/2 (twiddle -j): exact sums, rounded to even.
             let mut g = 0;
             while g < points {
@@ -197,10 +318,10 @@ macro_rules! real_fft_kernel {
                     data[j] as W,
                     data[j + 1] as W,
                 );
-                peak = peak.max(store(&mut data[i], scale_exact(ar + br, shift)));
-                peak = peak.max(store(&mut data[i + 1], scale_exact(ai + bi, shift)));
-                peak = peak.max(store(&mut data[j], scale_exact(ar - br, shift)));
-                peak = peak.max(store(&mut data[j + 1], scale_exact(ai - bi, shift)));
+                store(&mut data[i], scale_exact(ar + br, shift));
+                store(&mut data[i + 1], scale_exact(ai + bi, shift));
+                store(&mut data[j], scale_exact(ar - br, shift));
+                store(&mut data[j + 1], scale_exact(ai - bi, shift));
                 let (i, j) = (i + half, j + half);
                 let (ar, ai, br, bi) = (
                     data[i] as W,
@@ -209,10 +330,10 @@ macro_rules! real_fft_kernel {
                     data[j + 1] as W,
                 );
                 // (-j) b = (bi, -br)
-                peak = peak.max(store(&mut data[i], scale_exact(ar + bi, shift)));
-                peak = peak.max(store(&mut data[i + 1], scale_exact(ai - br, shift)));
-                peak = peak.max(store(&mut data[j], scale_exact(ar - bi, shift)));
-                peak = peak.max(store(&mut data[j + 1], scale_exact(ai + br, shift)));
+                store(&mut data[i], scale_exact(ar + bi, shift));
+                store(&mut data[i + 1], scale_exact(ai - br, shift));
+                store(&mut data[j], scale_exact(ar - bi, shift));
+                store(&mut data[j + 1], scale_exact(ai + br, shift));
                 g += span;
             }
             // The other twiddles: w = cos - j sin of 2 pi k / span, read from the N-point table.
@@ -230,14 +351,13 @@ macro_rules! real_fft_kernel {
                     let pi = (br * wi + bi * wr) >> 1;
                     let ar = ((data[i] as W) << (FRAC - 1)) + rounding;
                     let ai = ((data[i + 1] as W) << (FRAC - 1)) + rounding;
-                    peak = peak.max(store(&mut data[i], (ar + pr) >> out_shift));
-                    peak = peak.max(store(&mut data[i + 1], (ai + pi) >> out_shift));
-                    peak = peak.max(store(&mut data[j], (ar - pr) >> out_shift));
-                    peak = peak.max(store(&mut data[j + 1], (ai - pi) >> out_shift));
+                    store(&mut data[i], (ar + pr) >> out_shift);
+                    store(&mut data[i + 1], (ai + pi) >> out_shift);
+                    store(&mut data[j], (ar - pr) >> out_shift);
+                    store(&mut data[j + 1], (ai - pi) >> out_shift);
                     g += span;
                 }
             }
-            peak
         }
 
         /// Turns the N/2-point complex spectrum Z of the even/odd-interleaved input into the
@@ -321,7 +441,7 @@ pub(crate) mod q31 {
 
 #[cfg(test)]
 mod tests {
-    use super::{q15, q31, GROWTH_DEN, GROWTH_NUM};
+    use super::{q15, q31, GROWTH4_NUM, GROWTH_DEN, GROWTH_NUM};
 
     // The growth bound is at least 1 + sqrt(2) |w| for the largest rounded twiddle:
     // |w|^2 <= (|c| + 2^-16)^2 + (|s| + 2^-16)^2 <= 1 + sqrt(2) 2^-15 + 2^-31.
@@ -338,7 +458,7 @@ mod tests {
     fn shift_thresholds_keep_outputs_in_range() {
         let growth = GROWTH_NUM as f64 / GROWTH_DEN as f64;
         assert!(q15::NO_SHIFT_PEAK as f64 * growth + 0.5 < 32767.5);
-        assert!(q15::ONE_SHIFT_PEAK as f64 * growth / 2.0 + 0.5 < 32767.5);
+        assert!((2 * q15::NO_SHIFT_PEAK) as f64 * growth / 2.0 + 0.5 < 32767.5);
         assert!(32768.0 * growth / 4.0 + 0.5 < 32767.5);
         assert!(q31::NO_SHIFT_PEAK as f64 * growth + 0.5 < 2_147_483_647.5);
         assert!(2_147_483_648.0 * growth / 4.0 + 0.5 < 2_147_483_647.5);
@@ -348,7 +468,13 @@ mod tests {
         // normalising up: 6786 * 2 still needs no shift, 6787 * 2 would
         assert_eq!((q15::stage_shift(6786), q15::stage_shift(6787)), (-1, 0));
         assert_eq!(q15::stage_shift(1), -8);
-        assert_eq!(q15::stage_shift(0), 0);
+        assert_eq!(q15::stage_shift(0), -8);
+        // radix-4: 5.2429 growth, up to 3 bits
+        let growth4 = GROWTH4_NUM as f64 / GROWTH_DEN as f64;
+        assert!(growth4 >= 1.0 + 3.0 * 2f64.sqrt() * (1.0 + 2f64.sqrt() / 32768.0).sqrt());
+        assert!(q15::NO_SHIFT_PEAK_RADIX4 as f64 * growth4 + 0.5 < 32767.5);
+        assert!(32768.0 * growth4 / 8.0 + 0.5 < 32767.5);
+        assert!(q31::NO_SHIFT_PEAK_RADIX4 as f64 * growth4 + 0.5 < 2_147_483_647.5);
     }
 
     // Round half to even on exact values: no bias over a symmetric range of inputs.

@@ -1,9 +1,10 @@
 //! Fixed-point real FFTs with block floating point: Q15 (16-bit data, 32-bit products) and
 //! Q31 (32-bit data, 64-bit products), for `N` = 64, 128, ..., 4096.
 //!
-//! Our own code: an `N/2`-point complex radix-2 decimation-in-time FFT of the even and odd
-//! samples, then a split stage that turns it into the real input's spectrum. Twiddles are
-//! `const` tables computed in f64 by [`crate::math::cos_turns`] and rounded once.
+//! Our own code: an `N/2`-point complex radix-4 (and one radix-2) decimation-in-time FFT of
+//! the even and odd samples, then a split stage that turns it into the real input's
+//! spectrum. Twiddles are `const` tables computed in f64 by [`crate::math::cos_turns`] and
+//! rounded once.
 //!
 //! # Output convention
 //!
