@@ -34,9 +34,29 @@
 //! # Accuracy
 //!
 //! Measured by `tests/fixed_fft.rs` on two off-bin tones (-1 dBFS and -60 dB below it) under
-//! a Hann window, against rustfft in f64 on the same quantised input: Q15 reaches about
-//! 63 dB SNR at N = 1024, Q31 about 150 dB; see that file for every N, the bias and the
-//! small tone's level error.
+//! a periodic Hann window, quantised to 16 bits, against rustfft in f64 on the same input
+//! (32 random phase pairs per N; CMSIS-DSP's Q15 RFFT measured 53.1 / 47.8 / 42.8 dB on the
+//! same kind of signal, REFERENCES.md section 3.2):
+//!
+//! | N | Q15 SNR | Q15 SNR at -41 dBFS | -60 dB tone level, worst | Q31 SNR |
+//! |---|---|---|---|---|
+//! | 256 | 73.5 dB | 70.6 dB | 0.32 dB | 167.3 dB |
+//! | 1024 | 70.1 dB | 64.7 dB | 0.35 dB | 161.6 dB |
+//! | 4096 | 73.4 dB | 58.3 dB | 0.39 dB | 155.6 dB |
+//!
+//! The output's bias (mean error) is below 0.01 LSB. On uniform noise the error is 2.6 to
+//! 3.9 output LSB rms per bin, at most 11 LSB in any bin (N = 64 ... 4096).
+//!
+//! # Cost
+//!
+//! No division, no 64-bit arithmetic in the Q15 path, no `unsafe`, no float. Flash: one
+//! `N`-entry cosine table per size used (2 N bytes for Q15, 4 N for Q31). RAM: the caller's
+//! buffer only. Instructions for one Q15 transform of N = 1024, counted by QEMU 7.2 in
+//! single-step mode on a release build (`opt-level = 3`, LTO): about 208,000 on Cortex-M0
+//! (`microbit` machine, thumbv6m) and 154,000 on Cortex-M4 (`mps2-an386`, thumbv7em). About
+//! 40 % of that is the radix-4 butterflies, 20 % the two passes of the split stage, 15 % the
+//! radix-2 stage, 15 % the fused first stage and the bit reversal. On a 2020s x86-64 host:
+//! 11 us (Q15) and 14 us (Q31) at N = 1024.
 //!
 //! # Example
 //!
