@@ -439,7 +439,9 @@ pub(crate) mod q31 {
     real_fft_kernel!(i32, i64, u64, 31);
 }
 
+// The checks compute their references in f64.
 #[cfg(test)]
+#[allow(clippy::float_arithmetic)]
 mod tests {
     use super::{q15, q31, GROWTH4_NUM, GROWTH_DEN, GROWTH_NUM};
 

@@ -180,7 +180,9 @@ fn unpack<T: Copy + Default, const N: usize>(spectrum: &[T; N], k: usize) -> Opt
     }
 }
 
+// The checks compute their references in f64.
 #[cfg(test)]
+#[allow(clippy::float_arithmetic)]
 mod tests {
     use super::*;
 
