@@ -281,8 +281,9 @@ macro_rules! real_fft_kernel {
             )
         }
 
-        /// The radix-4 butterfly on twiddled inputs: `y0, y1, y2, y3` as (re, im) words, for
-        /// the slots of `D0`, `D2`, `D1`, `D3` (positions 0, 1, 2, 3 quarters).
+        /// The radix-4 butterfly on the twiddled sub-spectra `t0..t3` (residue order): returns
+        /// `y0, y1, y2, y3` as (re, im) words, in output order, i.e. for quarters 0, 1, 2, 3 of
+        /// the group.
         #[inline(always)]
         fn radix4_combine(t0: (W, W), t1: (W, W), t2: (W, W), t3: (W, W)) -> [W; 8] {
             let s0 = (t0.0 + t2.0, t0.1 + t2.1);
