@@ -1,6 +1,9 @@
-//! Real FFTs behind one interface per number type. Each returns the `N/2 + 1` one-sided bins
+//! Real FFTs, one module per arithmetic. Each gives the `N/2 + 1` one-sided bins
 //! `X[k] = sum_n x[n] exp(-2 pi j k n / N)`, unscaled (as NumPy's `rfft` with its default
-//! `norm="backward"`).
+//! `norm="backward"`); the fixed-point ones return a block exponent with them.
 
 #[cfg(feature = "f32")]
 pub mod float;
+
+#[cfg(feature = "fixed")]
+pub mod fixed;
