@@ -58,3 +58,8 @@ pub use spectrum::analyzer::{Analyzer, Config, Overlap, PushReport, Stage, Statu
 pub use spectrum::average::{Averaging, WhenDone};
 pub use spectrum::condition::{Detrend, OverloadPolicy};
 pub use spectrum::scale::{Correction, Scale, Spectrum, SpectrumInfo};
+
+// The README's example runs as a doctest, so it cannot go stale.
+#[cfg(all(doctest, feature = "f32"))]
+#[doc = include_str!("../README.md")]
+struct ReadmeDoctests;
