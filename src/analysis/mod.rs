@@ -3,3 +3,4 @@
 pub mod bands;
 pub mod bearing;
 pub mod envelope;
+pub mod stats;
