@@ -721,7 +721,7 @@ mod tests {
             assert!(settled.iter().all(|x| x.is_finite()));
             let mean = settled.iter().map(|&x| x as f64).sum::<f64>() / settled.len() as f64;
             let want = 0.5 * d.band_pass_gain(fc as f32);
-            let tolerance = 2e-5 + folded_harmonics_bound(fc as f64, &[0.0], 1.0);
+            let tolerance = 2e-5 + folded_harmonics_bound(fc, &[0.0], 1.0);
             println!("carrier {fc} Hz: mean {mean}, expected {want}, tolerance {tolerance:e}");
             assert!((mean / want - 1.0).abs() < tolerance, "{mean} vs {want}");
         }

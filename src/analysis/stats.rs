@@ -189,7 +189,7 @@ impl Statistics {
     /// Adds samples, any number; bad ones are counted and left out.
     pub fn push(&mut self, samples: &[f32]) {
         for &x in samples {
-            if !(x.abs() <= MAX_MAGNITUDE) {
+            if x.is_nan() || x.abs() > MAX_MAGNITUDE {
                 self.excluded = self.excluded.saturating_add(1);
                 continue;
             }
@@ -266,7 +266,7 @@ impl Statistics {
 
     /// Largest minus smallest sample, or `None` before the first sample.
     pub fn peak_to_peak(&self) -> Option<f32> {
-        (self.count() > 0).then(|| self.max - self.min)
+        (self.count() > 0).then_some(self.max - self.min)
     }
 
     /// The smallest and largest samples, or `None` before the first sample.
