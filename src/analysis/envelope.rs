@@ -47,7 +47,7 @@
 //! # Bad samples
 //!
 //! A NaN, an infinity or a sample beyond
-//! [`MAX_INPUT_MAGNITUDE`](crate::spectrum::condition::MAX_INPUT_MAGNITUDE) would poison the
+//! [`MAX_INPUT_MAGNITUDE`] would poison the
 //! recursive filters for ever. Instead the detector **resets** every filter state to zero,
 //! treats the sample as 0, counts the event ([`EnvelopeDetector::resets`]), and writes NaN
 //! for the next [`settling_outputs`](EnvelopeDetector::settling_outputs) outputs, the time
