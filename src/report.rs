@@ -346,7 +346,8 @@ impl BandLevel {
 }
 
 /// One report. The format version is not a field: [`Summary::encode`] writes
-/// [`FORMAT_VERSION`] and [`Summary::decode`] checks it.
+/// [`FORMAT_VERSION`] and [`Summary::decode`] checks it. (Unlike its parts, `Summary` does
+/// not derive `defmt::Format`, which would need heapless's own defmt feature; log the parts.)
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Summary {
     /// The node's report counter.
