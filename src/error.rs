@@ -48,6 +48,8 @@ pub enum ConfigError {
         /// The block length N.
         block_len: usize,
     },
+    /// A decimation factor must be in `1 ..= 256` (see `analysis::envelope::MAX_DECIMATION`).
+    Decimation,
 }
 
 impl fmt::Display for ConfigError {
@@ -77,6 +79,7 @@ impl fmt::Display for ConfigError {
                 f,
                 "{bins} spectrum lines do not fit a block of {block_len} (need N/2 + 1)"
             ),
+            Self::Decimation => f.write_str("decimation factor must be in 1..=256"),
         }
     }
 }

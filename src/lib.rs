@@ -31,6 +31,10 @@
 //! | `defmt` | no | `defmt::Format` for the public types, for firmware logs |
 //! | `std` | no | host helpers only; the core never needs it |
 //! | `demo` | no | [`demo`]: an invented pump-set signal generator for the demo programs and firmware |
+//! | `report` | no | [`report`]: the compact radio summary, encoded and decoded with serde + postcard (no `alloc`) |
+//!
+//! Without any feature the crate still has [`analysis::envelope::EnvelopeDetector`] and
+//! [`analysis::stats::Statistics`]; the envelope's `EnvelopeAnalyzer` needs `f32`.
 #![cfg_attr(not(test), no_std)]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
@@ -46,6 +50,8 @@ pub mod demo;
 pub mod error;
 pub mod fft;
 pub mod math;
+#[cfg(feature = "report")]
+pub mod report;
 pub mod spectrum;
 pub mod window;
 

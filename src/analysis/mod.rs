@@ -2,3 +2,5 @@
 
 pub mod bands;
 pub mod bearing;
+pub mod envelope;
+pub mod stats;
