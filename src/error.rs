@@ -37,6 +37,16 @@ pub enum ConfigError {
         /// The block length N.
         block_len: usize,
     },
+    /// A rolling-element bearing needs at least one ball (or roller).
+    BallCount,
+    /// The ball diameter must be finite, greater than zero and less than the pitch diameter.
+    BallDiameter,
+    /// The pitch diameter must be finite and greater than zero.
+    PitchDiameter,
+    /// The contact angle must be finite and in `0.0..90.0` degrees.
+    ContactAngle,
+    /// A shaft speed must be finite and not negative (Hz).
+    ShaftSpeed,
 }
 
 impl fmt::Display for ConfigError {
@@ -57,6 +67,13 @@ impl fmt::Display for ConfigError {
                 f,
                 "{bins} spectrum lines do not fit a block of {block_len} (need N/2 + 1)"
             ),
+            Self::BallCount => f.write_str("a bearing needs at least one ball"),
+            Self::BallDiameter => {
+                f.write_str("ball diameter must be finite, > 0 and less than the pitch diameter")
+            }
+            Self::PitchDiameter => f.write_str("pitch diameter must be finite and > 0"),
+            Self::ContactAngle => f.write_str("contact angle must be in 0.0..90.0 degrees"),
+            Self::ShaftSpeed => f.write_str("shaft speed must be finite and >= 0 Hz"),
         }
     }
 }

@@ -23,6 +23,7 @@
 //! | `fixed` | no | Q15/Q31 transforms and analyzer; no float on the hot path |
 //! | `defmt` | no | `defmt::Format` for the public types, for firmware logs |
 //! | `std` | no | host helpers only; the core never needs it |
+//! | `demo` | no | [`demo`]: an invented pump-set signal generator for the demo programs and firmware |
 #![cfg_attr(not(test), no_std)]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
@@ -32,12 +33,16 @@
     clippy::std_instead_of_alloc
 )]
 
+pub mod analysis;
+#[cfg(feature = "demo")]
+pub mod demo;
 pub mod error;
 pub mod fft;
 pub mod math;
 pub mod spectrum;
 pub mod window;
 
+pub use analysis::bearing::{BearingGeometry, DefectFrequencies, DefectOrders};
 pub use error::ConfigError;
 pub use window::{Factors, Shape, Symmetry, Window, WindowQ15};
 

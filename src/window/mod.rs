@@ -63,8 +63,15 @@ pub struct Factors {
 }
 
 impl Factors {
-    /// Computes the factors of a table.
-    const fn of_table<const N: usize>(table: &[f64; N]) -> Factors {
+    /// Computes the factors of any table of samples (at compile time or at run time).
+    ///
+    /// ```
+    /// use leakless::Factors;
+    /// let f = Factors::of_samples(&[1.0; 8]);
+    /// assert_eq!((f.coherent_gain, f.enbw_bins), (1.0, 1.0));
+    /// ```
+    pub const fn of_samples(table: &[f64]) -> Factors {
+        let n_len = table.len();
         let mut sum = 0.0;
         let mut sum_of_squares = 0.0;
         // DTFT at half a bin: W(0.5) = sum w[n] exp(-j pi n / N).
@@ -73,21 +80,21 @@ impl Factors {
         let mut lag_half = 0.0;
         let mut lag_quarter = 0.0;
         let mut i = 0;
-        while i < N {
+        while i < n_len {
             let w = table[i];
             sum += w;
             sum_of_squares += w * w;
-            re += w * math::cos_turns(i as u64, 2 * N as u64);
-            im -= w * math::sin_turns(i as u64, 2 * N as u64);
-            if i + N / 2 < N {
-                lag_half += w * table[i + N / 2];
+            re += w * math::cos_turns(i as u64, 2 * n_len as u64);
+            im -= w * math::sin_turns(i as u64, 2 * n_len as u64);
+            if i + n_len / 2 < n_len {
+                lag_half += w * table[i + n_len / 2];
             }
-            if i + N / 4 < N {
-                lag_quarter += w * table[i + N / 4];
+            if i + n_len / 4 < n_len {
+                lag_quarter += w * table[i + n_len / 4];
             }
             i += 1;
         }
-        let n = N as f64;
+        let n = n_len as f64;
         let half_bin = math::sqrt(re * re + im * im);
         Factors {
             sum,
@@ -97,7 +104,7 @@ impl Factors {
             mean_square_gain: sum_of_squares / n,
             energy_correction: 1.0 / math::sqrt(sum_of_squares / n),
             enbw_bins: n * sum_of_squares / (sum * sum),
-            scalloping_loss_db: 2.0 * math::power_db(half_bin / abs_f64(sum)),
+            scalloping_loss_db: 2.0 * math::power_db(half_bin / math::abs(sum)),
             overlap_correlation_50: lag_half / sum_of_squares,
             overlap_correlation_75: lag_quarter / sum_of_squares,
         }
@@ -108,10 +115,6 @@ impl Factors {
     pub fn enbw_hz(&self, sample_rate_hz: f64, block_len: usize) -> f64 {
         self.enbw_bins * sample_rate_hz / block_len as f64
     }
-}
-
-const fn abs_f64(x: f64) -> f64 {
-    math::abs(x)
 }
 
 /// Checks a block length at compile time: at least 2 samples, at most 65536.
@@ -203,7 +206,7 @@ impl<const N: usize> Window<N> {
             shape,
             symmetry,
             table,
-            factors: Factors::of_table(&exact),
+            factors: Factors::of_samples(&exact),
         })
     }
 
@@ -319,7 +322,7 @@ impl<const N: usize> WindowQ15<N> {
             shape,
             symmetry,
             table,
-            factors: Factors::of_table(&stored),
+            factors: Factors::of_samples(&stored),
         })
     }
 

@@ -1,0 +1,3 @@
+//! Analysis of spectra and signals: what the numbers mean for a machine.
+
+pub mod bearing;
