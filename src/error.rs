@@ -30,6 +30,8 @@ pub enum ConfigError {
     WindowParameter,
     /// A frequency (band edge, integration cut-off, tone search range) is not usable.
     Frequency,
+    /// A tone search's floor must be finite and `>= 0` (RMS), and its range in dB `>= 0`.
+    ToneFloor,
     /// A spectrum of `bins` lines cannot hold the `block_len / 2 + 1` lines of an even block.
     BinCount {
         /// The lines the spectrum has.
@@ -63,6 +65,7 @@ impl fmt::Display for ConfigError {
             Self::FullScale => f.write_str("full scale must be finite and > 0"),
             Self::WindowParameter => f.write_str("window parameter out of range"),
             Self::Frequency => f.write_str("frequency out of range"),
+            Self::ToneFloor => f.write_str("tone floor and range must be >= 0"),
             Self::BinCount { bins, block_len } => write!(
                 f,
                 "{bins} spectrum lines do not fit a block of {block_len} (need N/2 + 1)"

@@ -1,3 +1,4 @@
 //! Analysis of spectra and signals: what the numbers mean for a machine.
 
 pub mod bearing;
+pub mod peaks;
