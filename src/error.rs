@@ -21,7 +21,8 @@ pub enum ConfigError {
     OverlapFraction,
     /// A linear average needs a count of at least 1; an exponential one a time constant >= 1.
     AverageCount,
-    /// The sensitivity (engineering units per input unit) must be finite and non-zero.
+    /// The sensitivity (engineering units per input unit) must be finite and non-zero, with a
+    /// magnitude in `1e-9 ..= 1e9` (`spectrum::condition::SENSITIVITY_RANGE`).
     Sensitivity,
     /// The full-scale (overload) limit must be finite and greater than zero.
     FullScale,
@@ -32,13 +33,6 @@ pub enum ConfigError {
     Frequency,
     /// A tone search's floor must be finite and `>= 0` (RMS), and its range in dB `>= 0`.
     ToneFloor,
-    /// A spectrum of `bins` lines cannot hold the `block_len / 2 + 1` lines of an even block.
-    BinCount {
-        /// The lines the spectrum has.
-        bins: usize,
-        /// The block length N.
-        block_len: usize,
-    },
     /// A rolling-element bearing needs at least one ball (or roller).
     BallCount,
     /// The ball diameter must be finite, greater than zero and less than the pitch diameter.
@@ -49,6 +43,13 @@ pub enum ConfigError {
     ContactAngle,
     /// A shaft speed must be finite and not negative (Hz).
     ShaftSpeed,
+    /// A spectrum of `bins` lines cannot hold the `block_len / 2 + 1` lines of an even block.
+    BinCount {
+        /// The lines the spectrum has.
+        bins: usize,
+        /// The block length N.
+        block_len: usize,
+    },
 }
 
 impl fmt::Display for ConfigError {
@@ -61,15 +62,13 @@ impl fmt::Display for ConfigError {
             ),
             Self::OverlapFraction => f.write_str("overlap fraction must be in 0.0..1.0"),
             Self::AverageCount => f.write_str("average count / time constant must be >= 1"),
-            Self::Sensitivity => f.write_str("sensitivity must be finite and non-zero"),
+            Self::Sensitivity => {
+                f.write_str("sensitivity must be finite, with magnitude in 1e-9..=1e9")
+            }
             Self::FullScale => f.write_str("full scale must be finite and > 0"),
             Self::WindowParameter => f.write_str("window parameter out of range"),
             Self::Frequency => f.write_str("frequency out of range"),
             Self::ToneFloor => f.write_str("tone floor and range must be >= 0"),
-            Self::BinCount { bins, block_len } => write!(
-                f,
-                "{bins} spectrum lines do not fit a block of {block_len} (need N/2 + 1)"
-            ),
             Self::BallCount => f.write_str("a bearing needs at least one ball"),
             Self::BallDiameter => {
                 f.write_str("ball diameter must be finite, > 0 and less than the pitch diameter")
@@ -77,6 +76,10 @@ impl fmt::Display for ConfigError {
             Self::PitchDiameter => f.write_str("pitch diameter must be finite and > 0"),
             Self::ContactAngle => f.write_str("contact angle must be in 0.0..90.0 degrees"),
             Self::ShaftSpeed => f.write_str("shaft speed must be finite and >= 0 Hz"),
+            Self::BinCount { bins, block_len } => write!(
+                f,
+                "{bins} spectrum lines do not fit a block of {block_len} (need N/2 + 1)"
+            ),
         }
     }
 }

@@ -15,11 +15,18 @@
 //! assert!((HANN.factors().enbw_bins - 1.5).abs() < 1e-12);
 //! ```
 //!
+//! Spectra come from an [`Analyzer`] (feature `f32`): push samples in chunks of any length,
+//! read a [`Spectrum`] on any [`Scale`] at any time. Levels are one-sided (lines
+//! `1 ..= N/2 - 1` carry their negative-frequency image, DC and Nyquist do not), in
+//! engineering units (input times sensitivity), and carry the window [`Correction`] they were
+//! read with; [`spectrum::scale`] tabulates every factor.
+//!
 //! ## Optional features
 //!
 //! | feature | default | what it adds |
 //! |---|---|---|
-//! | `f32` | yes | the floating-point transform (over `microfft`) and analyzer |
+//! | `f32` | yes | the floating-point transform (over `microfft`) and analyzer, N = 64 |
+//! | `size-128` ... `size-4096` | `size-4096` | f32 transforms up to that N (chained: each includes the smaller; fewer means less flash) |
 //! | `fixed` | no | Q15/Q31 transforms and analyzer; no float on the hot path |
 //! | `defmt` | no | `defmt::Format` for the public types, for firmware logs |
 //! | `std` | no | host helpers only; the core never needs it |

@@ -1,4 +1,5 @@
 //! Integration tests of the float analyzer against outside references.
+#![cfg(all(feature = "f32", feature = "size-1024"))]
 
 mod support;
 

@@ -1,5 +1,6 @@
 //! Property tests of the float analyzer: chunking invariance, no panics, exact counters.
 //! Fixed seed and a limited number of cases so CI stays fast.
+#![cfg(feature = "f32")]
 
 use leakless::spectrum::condition::MAX_INPUT_MAGNITUDE;
 use leakless::{Analyzer, Averaging, Config, Correction, Scale, Shape, Status, WhenDone, Window};

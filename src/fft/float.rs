@@ -1,6 +1,7 @@
 //! The `f32` real FFT, over `microfft`.
 //!
-//! [`rfft`] transforms an `N`-sample block in place, for `N` = 64, 128, ..., 4096. Any other
+//! [`rfft`] transforms an `N`-sample block in place, for `N` = 64, 128, ..., 4096: 64 always,
+//! the larger sizes up to the `size-*` feature enabled (`size-4096` by default). Any other
 //! `N` is a compile error:
 //!
 //! ```compile_fail
@@ -31,9 +32,16 @@
 
 pub use microfft::Complex32;
 
-/// Whether [`rfft`] supports a block length: a power of two from 64 to 4096.
+/// Whether [`rfft`] supports a block length in this build: 64, or a larger power of two up
+/// to 4096 whose `size-N` feature is enabled.
 pub const fn is_supported(n: usize) -> bool {
-    n.is_power_of_two() && n >= 64 && n <= 4096
+    n == 64
+        || (n == 128 && cfg!(feature = "size-128"))
+        || (n == 256 && cfg!(feature = "size-256"))
+        || (n == 512 && cfg!(feature = "size-512"))
+        || (n == 1024 && cfg!(feature = "size-1024"))
+        || (n == 2048 && cfg!(feature = "size-2048"))
+        || (n == 4096 && cfg!(feature = "size-4096"))
 }
 
 /// The one-sided spectrum of a real block, borrowed from the transformed buffer.
@@ -98,15 +106,16 @@ pub fn rfft<const N: usize>(block: &mut [f32; N]) -> RealSpectrum<'_> {
     const {
         assert!(
             is_supported(N),
-            "not a supported FFT size: N must be a power of two from 64 to 4096"
+            "not a supported FFT size: N must be a power of two from 64 to 4096, \
+             with its `size-N` feature enabled"
         )
     };
     // One arm per size; `try_from` cannot fail in the arm whose size matches N, and the
     // fallback arm is unreachable after the assertion above. Neither panics.
     macro_rules! dispatch {
-        ($($size:literal => $f:ident),*) => {
+        ($($size:literal => $f:ident $(if $feature:literal)?),*) => {
             match N {
-                $($size => match <&mut [f32; $size]>::try_from(block.as_mut_slice()) {
+                $($(#[cfg(feature = $feature)])? $size => match <&mut [f32; $size]>::try_from(block.as_mut_slice()) {
                     Ok(b) => microfft::real::$f(b).as_slice(),
                     Err(_) => &[],
                 },)*
@@ -116,12 +125,12 @@ pub fn rfft<const N: usize>(block: &mut [f32; N]) -> RealSpectrum<'_> {
     }
     let packed: &[Complex32] = dispatch!(
         64 => rfft_64,
-        128 => rfft_128,
-        256 => rfft_256,
-        512 => rfft_512,
-        1024 => rfft_1024,
-        2048 => rfft_2048,
-        4096 => rfft_4096
+        128 => rfft_128 if "size-128",
+        256 => rfft_256 if "size-256",
+        512 => rfft_512 if "size-512",
+        1024 => rfft_1024 if "size-1024",
+        2048 => rfft_2048 if "size-2048",
+        4096 => rfft_4096 if "size-4096"
     );
     RealSpectrum { packed }
 }
@@ -166,17 +175,25 @@ mod tests {
     #[test]
     fn every_size_matches_rustfft() {
         check_against_rustfft::<64>();
+        #[cfg(feature = "size-128")]
         check_against_rustfft::<128>();
+        #[cfg(feature = "size-256")]
         check_against_rustfft::<256>();
+        #[cfg(feature = "size-512")]
         check_against_rustfft::<512>();
+        #[cfg(feature = "size-1024")]
         check_against_rustfft::<1024>();
+        #[cfg(feature = "size-2048")]
         check_against_rustfft::<2048>();
+        #[cfg(feature = "size-4096")]
         check_against_rustfft::<4096>();
     }
 
     #[test]
     fn supported_sizes() {
-        assert!(is_supported(64) && is_supported(4096));
+        assert!(is_supported(64));
+        assert_eq!(is_supported(4096), cfg!(feature = "size-4096"));
+        assert_eq!(is_supported(1024), cfg!(feature = "size-1024"));
         assert!(!is_supported(32) && !is_supported(8192) && !is_supported(1000));
     }
 }

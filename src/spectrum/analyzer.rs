@@ -66,8 +66,8 @@ pub struct Config {
     pub averaging: Averaging,
     /// What is removed from each block before windowing. Default: the mean.
     pub detrend: Detrend,
-    /// Engineering units per input unit (per count for [`Analyzer::push_counts`]): finite,
-    /// non-zero. Default: 1.
+    /// Engineering units per input unit (per count for [`Analyzer::push_counts`]), magnitude
+    /// in [`SENSITIVITY_RANGE`](crate::spectrum::condition::SENSITIVITY_RANGE). Default: 1.
     pub sensitivity: f32,
     /// Overload limit in input units (a block with any `|x| >= full_scale` is overloaded):
     /// finite and > 0, or `None` for no check. Default: `None`.
@@ -220,7 +220,8 @@ pub struct Status {
 ///
 /// # Generics
 ///
-/// * `N`: block length, a power of two from 64 to 4096 (compile-time checked).
+/// * `N`: block length, a power of two from 64 to 4096 whose `size-N` feature is enabled
+///   (compile-time checked; see [`crate::fft::float`]).
 /// * `BINS`: `N / 2 + 1` (compile-time checked; stable Rust cannot compute it in a type).
 ///
 /// ```compile_fail
@@ -232,10 +233,22 @@ pub struct Status {
 /// # Memory
 ///
 /// No allocation: `core::mem::size_of::<Analyzer<N, BINS>>()` is the whole RAM cost. It owns
-/// the overlap ring (`4 N` bytes), the work block (`4 N`) and the power accumulator
-/// (`4 BINS`), plus about 100 bytes of settings and counters; the window table stays where
-/// the window is (flash, for a `static`). At `N = 1024` that is 10 360 bytes on a 64-bit host
-/// and less on a 32-bit target (the buffers alone are 10 244).
+/// the overlap buffer (`4 N` bytes), the work block (`4 N`) and the power accumulator
+/// (`4 BINS`), plus about 120 bytes of settings and counters; the window table stays where
+/// the window is (flash, for a `static`).
+///
+/// | `N` | buffers | `size_of`, thumbv7em (32-bit) | `size_of`, x86_64 |
+/// |---|---|---|---|
+/// | 1024 | 10 244 | 10 360 (+1.1 %) | 10 400 |
+///
+/// (Measured with a `const` array of that length on each target, rustc 1.95.)
+///
+/// # Cost per block
+///
+/// Outside the FFT, three O(N) passes: check and mean, detrend and window, `|X|^2` into the
+/// average; scaling to levels happens only when a spectrum is read. On an x86-64 host at
+/// `N = 1024` the whole pipeline measured 1.08 to 1.12 times a bare `microfft::rfft_1024` of
+/// a copied block (best of 15 runs of 1280 blocks, on a shared machine).
 ///
 /// # Example
 ///
@@ -280,7 +293,8 @@ pub struct Analyzer<'a, const N: usize, const BINS: usize> {
 
 impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
     /// An analyzer over `window` (borrowed: the table stays in flash) with `config`, or the
-    /// first setting that cannot work.
+    /// first setting that cannot work ([`ConfigError::WindowParameter`] for a window whose
+    /// coherent gain is not above 1e-6, which no level could be corrected for).
     pub fn new(window: &'a Window<N>, config: Config) -> Result<Self, ConfigError> {
         const {
             assert!(is_supported(N), "N must be a power of two from 64 to 4096");
@@ -288,6 +302,12 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
         }
         if !(config.sample_rate_hz.is_finite() && config.sample_rate_hz > 0.0) {
             return Err(ConfigError::SampleRate);
+        }
+        // Every level divides by the window's sums; a user cosine sum can make them (nearly)
+        // zero. Real windows have a coherent gain above 0.05.
+        let factors = window.factors();
+        if !(factors.coherent_gain > 1e-6 && factors.mean_square_gain > 1e-12) {
+            return Err(ConfigError::WindowParameter);
         }
         let overlap = config.overlap.samples(N)?;
         let framer = Framer::new(overlap)?;

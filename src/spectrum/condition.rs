@@ -15,6 +15,11 @@ use crate::error::ConfigError;
 /// cannot overflow the `f32` transform or its power (`(2 * 1e15 * 4096)^2 < 3.4e38`).
 pub const MAX_INPUT_MAGNITUDE: f32 = 1e15;
 
+/// The magnitudes of sensitivity accepted: wide enough for any sensor (counts to g is about
+/// 1e-4, volts to m/s^2 about 1e2), narrow enough that the read-out scaling of a valid block
+/// stays inside the `f32` range instead of underflowing to zero.
+pub const SENSITIVITY_RANGE: core::ops::RangeInclusive<f32> = 1e-9..=1e9;
+
 /// What is removed from each block before windowing.
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Default)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -63,16 +68,16 @@ pub struct Conditioning {
 }
 
 impl Conditioning {
-    /// Checks the settings: `sensitivity` (engineering units per input unit) finite and
-    /// non-zero (a negative one flips polarity, which no power spectrum sees); `full_scale`
-    /// (input units) finite and > 0 when given.
+    /// Checks the settings: `sensitivity` (engineering units per input unit) with a magnitude
+    /// in [`SENSITIVITY_RANGE`] (a negative one flips polarity, which no power spectrum sees);
+    /// `full_scale` (input units) finite and > 0 when given.
     pub fn new(
         detrend: Detrend,
         sensitivity: f32,
         full_scale: Option<f32>,
         overload: OverloadPolicy,
     ) -> Result<Self, ConfigError> {
-        if !sensitivity.is_finite() || sensitivity == 0.0 {
+        if !SENSITIVITY_RANGE.contains(&sensitivity.abs()) {
             return Err(ConfigError::Sensitivity);
         }
         if let Some(fs) = full_scale {
@@ -109,26 +114,19 @@ impl Conditioning {
     }
 
     /// One pass over a block in input units: the checks and the offset to remove.
+    ///
+    /// The sum runs in [`LANES`] interleaved partial sums, added in a fixed order at the end:
+    /// independent sums let the compiler vectorise the loop, and the order depends only on
+    /// the block, never on how the stream was chunked.
     pub fn inspect(&self, block: &[f32]) -> BlockCheck {
-        let mut sum = 0.0f32;
-        let mut non_finite = false;
-        let mut overloaded = false;
-        match self.full_scale {
-            Some(limit) => {
-                for &x in block {
-                    let magnitude = x.abs();
-                    non_finite |= out_of_range(magnitude);
-                    overloaded |= magnitude >= limit;
-                    sum += x;
-                }
-            }
+        let (sum, non_finite, overloaded) = match self.full_scale {
+            Some(limit) => scan(block, limit),
+            // No limit: nothing is an overload, not even an infinity.
             None => {
-                for &x in block {
-                    non_finite |= out_of_range(x.abs());
-                    sum += x;
-                }
+                let (sum, non_finite, _) = scan(block, f32::INFINITY);
+                (sum, non_finite, false)
             }
-        }
+        };
         let offset = match self.detrend {
             Detrend::Mean if !non_finite && !block.is_empty() => sum / block.len() as f32,
             _ => 0.0,
@@ -144,6 +142,55 @@ impl Conditioning {
     pub fn accepts(&self, check: &BlockCheck) -> bool {
         let overload_rejects = check.overloaded && self.overload == OverloadPolicy::Reject;
         !(check.non_finite || overload_rejects)
+    }
+}
+
+/// Interleaved partial sums in [`Conditioning::inspect`].
+pub const LANES: usize = 8;
+
+/// Sum, non-finite flag and overload flag (`|x| >= limit`) of a block.
+///
+/// The loop keeps only partial sums and the largest magnitude, so it vectorises: a NaN or an
+/// infinity makes its lane's sum non-finite (finite samples below [`MAX_INPUT_MAGNITUDE`]
+/// cannot overflow a sum of at most 65536 of them), and [`larger`] skips NaN, so the largest
+/// magnitude sees every infinity and every huge value but never a NaN.
+#[inline(always)]
+fn scan(block: &[f32], limit: f32) -> (f32, bool, bool) {
+    let mut sums = [0.0f32; LANES];
+    let mut largest = [0.0f32; LANES];
+    let mut lanes = block.chunks_exact(LANES);
+    for chunk in &mut lanes {
+        for ((sum, big), &x) in sums.iter_mut().zip(&mut largest).zip(chunk) {
+            *sum += x;
+            *big = larger(*big, x.abs());
+        }
+    }
+    for ((sum, big), &x) in sums.iter_mut().zip(&mut largest).zip(lanes.remainder()) {
+        *sum += x;
+        *big = larger(*big, x.abs());
+    }
+    let non_finite_sum = sums.iter().any(|s| !s.is_finite());
+    let largest = largest.iter().fold(0.0f32, |m, &x| larger(m, x));
+    // Pairwise, in a fixed order.
+    let mut width = LANES;
+    while width > 1 {
+        width /= 2;
+        for l in 0..width {
+            sums[l] += sums[l + width];
+        }
+    }
+    let non_finite = non_finite_sum || out_of_range(largest);
+    (sums[0], non_finite, largest >= limit)
+}
+
+/// `x` if it is larger than `m`, else `m` (so a NaN `x` is skipped). One compare-and-select,
+/// which vectorises better than `f32::max`.
+#[inline(always)]
+fn larger(m: f32, x: f32) -> f32 {
+    if x > m {
+        x
+    } else {
+        m
     }
 }
 
@@ -204,12 +251,13 @@ mod tests {
     #[test]
     fn bad_settings_are_typed_errors() {
         let new = |s, fs| Conditioning::new(Detrend::Mean, s, fs, OverloadPolicy::Reject);
-        for s in [0.0, f32::NAN, f32::INFINITY, -f32::INFINITY] {
+        for s in [0.0, f32::NAN, f32::INFINITY, -f32::INFINITY, 1e-10, -2e9] {
             assert_eq!(new(s, None).err(), Some(ConfigError::Sensitivity));
         }
         for fs in [0.0, -1.0, f32::NAN, f32::INFINITY] {
             assert_eq!(new(1.0, Some(fs)).err(), Some(ConfigError::FullScale));
         }
         assert!(new(-9.81, Some(1.0)).is_ok());
+        assert!(new(1e-9, None).is_ok() && new(-1e9, None).is_ok());
     }
 }

@@ -1,6 +1,6 @@
-//! Framing: an overlap ring that turns chunks of any length into `N`-sample blocks.
+//! Framing: an overlap buffer that turns chunks of any length into `N`-sample blocks.
 //!
-//! Blocks start every `hop = N - overlap` samples. The ring only ever sees a stream of
+//! Blocks start every `hop = N - overlap` samples. The buffer only ever sees a stream of
 //! samples, so how the stream was cut into chunks cannot change any block.
 //!
 //! ```
@@ -19,20 +19,23 @@
 
 use crate::error::ConfigError;
 
-/// An overlap ring of `N` samples of type `T` (`f32`, or `i16`/`i32` for the fixed path).
+/// An overlap buffer of `N` samples of type `T` (`f32`, or `i16`/`i32` for the fixed path).
+///
+/// It holds the samples of the next block that have arrived so far, oldest first, always
+/// fewer than `N`: a block is assembled straight into the caller's buffer from them and the
+/// new input, and only the block's last `overlap` samples are copied back. With large chunks
+/// most samples are copied once (input to block), as a bare transform of the input would.
 #[derive(Clone, Debug)]
 pub struct Framer<T, const N: usize> {
-    ring: [T; N],
-    /// Index of the oldest sample.
-    head: usize,
-    /// Samples held, `0 ..= N`.
+    pending: [T; N],
+    /// Samples held, `0 .. N`.
     len: usize,
     /// Samples kept from one block for the next, `0 ..= N - 1`.
     overlap: usize,
 }
 
 impl<T: Copy + Default, const N: usize> Framer<T, N> {
-    /// A ring for `N`-sample blocks overlapping by `overlap` samples (`0 ..= N - 1`).
+    /// A buffer for `N`-sample blocks overlapping by `overlap` samples (`0 ..= N - 1`).
     pub fn new(overlap: usize) -> Result<Self, ConfigError> {
         if overlap >= N {
             return Err(ConfigError::Overlap {
@@ -41,8 +44,7 @@ impl<T: Copy + Default, const N: usize> Framer<T, N> {
             });
         }
         Ok(Self {
-            ring: [T::default(); N],
-            head: 0,
+            pending: [T::default(); N],
             len: 0,
             overlap,
         })
@@ -65,42 +67,30 @@ impl<T: Copy + Default, const N: usize> Framer<T, N> {
 
     /// Forgets every buffered sample.
     pub fn clear(&mut self) {
-        self.head = 0;
         self.len = 0;
     }
 
     /// Takes samples from the front of `input` until a block is complete or `input` is used
-    /// up. On a complete block, copies it (oldest sample first) into `block`, keeps its last
+    /// up. On a complete block, writes it (oldest sample first) into `block`, keeps its last
     /// `overlap` samples for the next one and returns `true`; `input` is advanced past what
     /// was taken. Call it in a loop until it returns `false`.
     pub fn next_block(&mut self, input: &mut &[T], block: &mut [T; N]) -> bool {
-        let wanted = N - self.len;
-        let take = wanted.min(input.len());
-        let (taken, rest) = input.split_at(take);
-        self.write(taken);
-        *input = rest;
-        if self.len < N {
+        let held = self.len;
+        let wanted = N - held;
+        if input.len() < wanted {
+            self.pending[held..held + input.len()].copy_from_slice(input);
+            self.len += input.len();
+            *input = &[];
             return false;
         }
-        // The ring is full, so `head` is where it wraps: oldest part first.
-        let (newer, older) = self.ring.split_at(self.head);
-        let (block_older, block_newer) = block.split_at_mut(older.len());
-        block_older.copy_from_slice(older);
-        block_newer.copy_from_slice(newer);
+        let (taken, rest) = input.split_at(wanted);
+        *input = rest;
+        block[..held].copy_from_slice(&self.pending[..held]);
+        block[held..].copy_from_slice(taken);
         let hop = N - self.overlap;
-        self.head = (self.head + hop) % N;
+        self.pending[..self.overlap].copy_from_slice(&block[hop..]);
         self.len = self.overlap;
         true
-    }
-
-    /// Appends `samples` (at most `N - len` of them) after the newest sample.
-    fn write(&mut self, samples: &[T]) {
-        let tail = (self.head + self.len) % N;
-        let first = samples.len().min(N - tail);
-        let (a, b) = samples.split_at(first);
-        self.ring[tail..tail + first].copy_from_slice(a);
-        self.ring[..b.len()].copy_from_slice(b);
-        self.len += samples.len();
     }
 }
 
