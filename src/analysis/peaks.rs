@@ -5,14 +5,16 @@
 //!
 //! 1. **Candidates**: local maxima of the spectrum (a line above its lower neighbour and not
 //!    below its upper one), DC excluded, inside the search range.
-//! 2. **Selection**, strongest first: a candidate within one main-lobe width (twice the
-//!    window's first null, [`main_lobe_half_width_bins`]) of a stronger accepted tone is part
-//!    of that tone's lobe or its first sidelobes, not a tone of its own. Candidates below the
+//! 2. **Selection**, strongest first: a candidate closer than one main-lobe width (twice the
+//!    window's first null, [`main_lobe_half_width_bins`]) to a stronger accepted tone is part
+//!    of that tone's lobe or its first sidelobes, not a tone of its own. Two tones a whole
+//!    main-lobe width apart (Hann: 4 lines) are both found. Candidates below the
 //!    floor ([`ToneSearch::floor_rms`], [`ToneSearch::range_db`]) end the search.
 //! 3. **Amplitude** from the *power in a band* (REFERENCES.md §2.1): the sum of the
 //!    energy-corrected mean squares ([`Spectrum::mean_square`]) of the `2 H + 2` lines
 //!    around the tone (`H`, the first null rounded up, on either side of it, and one line
-//!    more on the far side) is its mean square, whatever the window
+//!    more on the far side; a line nearer another tone found is left to that one) is its
+//!    mean square, whatever the window
 //!    and wherever the tone falls between lines. By Parseval the sum over *all* lines is
 //!    exact; the main lobe misses only the sidelobe power.
 //! 4. **Frequency** from the power-weighted centroid of the same lines, `sum k P_k / sum P_k`.
@@ -235,32 +237,13 @@ pub fn strongest_tones<const K: usize, const BINS: usize>(
     // are safe.
     let first = (libm::ceilf(search.min_frequency_hz / bin_hz) as usize).max(1);
     let last = (libm::floorf(search.max_frequency_hz / bin_hz) as usize).min(BINS - 1);
-    let suppress_within = 2.0 * lobe;
 
-    let power = |k: usize| spectrum.mean_square(k).unwrap_or(0.0);
-    let is_candidate = |k: usize| {
-        let p = power(k);
-        let below = power(k - 1);
-        let above = if k + 1 < BINS { power(k + 1) } else { 0.0 };
-        p > below && p >= above
-    };
+    // Select the peak lines, strongest first; then measure each.
+    let mut peaks: heapless::Vec<usize, K> = heapless::Vec::new();
     let mut strongest_line_power = None;
-    while !tones.is_full() {
-        // The strongest candidate not inside the lobe of a tone already taken.
-        let mut best: Option<(usize, f32)> = None;
-        for k in first..=last {
-            let p = power(k);
-            if best.is_some_and(|(_, b)| p <= b) || !is_candidate(k) {
-                continue;
-            }
-            let taken = tones
-                .iter()
-                .any(|t: &Tone| (k as f32 - t.peak_line as f32).abs() <= suppress_within);
-            if !taken {
-                best = Some((k, p));
-            }
-        }
-        let Some((line, line_power)) = best else {
+    while !peaks.is_full() {
+        let Some((line, line_power)) = strongest_free_maximum(spectrum, first, last, &peaks, lobe)
+        else {
             break;
         };
         let strongest = *strongest_line_power.get_or_insert(line_power);
@@ -268,69 +251,124 @@ pub fn strongest_tones<const K: usize, const BINS: usize>(
         if line_power < strongest * libm::powf(10.0, -search.range_db / 10.0) {
             break;
         }
-        let tone = measure(spectrum, line, lobe, bin_hz);
-        if tone.rms < search.floor_rms {
-            break;
-        }
         // Cannot fail: the loop stops when the list is full.
-        let _ = tones.push(tone);
+        let _ = peaks.push(line);
+    }
+    let mut centres: heapless::Vec<f32, K> = heapless::Vec::new();
+    for &line in &peaks {
+        let _ = centres.push(first_centre(spectrum, line));
+    }
+    for (i, &line) in peaks.iter().enumerate() {
+        let tone = measure(spectrum, line, i, &centres, lobe, bin_hz);
+        if tone.rms >= search.floor_rms {
+            let _ = tones.push(tone);
+        }
     }
     Ok(tones)
 }
 
-/// Sum and centroid of the lines `lo ..= hi`: `(sum P, sum (k - origin) P)`.
+/// The strongest local maximum in `first ..= last` that is not closer than a main-lobe width
+/// (`2 lobe`) to a line already taken, with its mean square.
+fn strongest_free_maximum<const BINS: usize>(
+    spectrum: &Spectrum<BINS>,
+    first: usize,
+    last: usize,
+    taken: &[usize],
+    lobe: f32,
+) -> Option<(usize, f32)> {
+    let power = |k: usize| spectrum.mean_square(k).unwrap_or(0.0);
+    let mut best: Option<(usize, f32)> = None;
+    for k in first..=last {
+        let p = power(k);
+        if best.is_some_and(|(_, b)| p <= b) {
+            continue;
+        }
+        let above = if k + 1 < BINS { power(k + 1) } else { 0.0 };
+        // `p > below` is false for NaN, so a NaN line is never a maximum.
+        if !(p > power(k - 1) && p >= above) {
+            continue;
+        }
+        let free = taken
+            .iter()
+            .all(|&t| (k as f32 - t as f32).abs() >= 2.0 * lobe);
+        if free {
+            best = Some((k, p));
+        }
+    }
+    best
+}
+
+/// Sum and centroid of the lines `lo ..= hi` that lie nearer `centres[own]` than any other
+/// centre: `(sum P, sum (k - origin) P)`.
 fn moments<const BINS: usize>(
     spectrum: &Spectrum<BINS>,
-    lo: usize,
-    hi: usize,
+    (lo, hi): (usize, usize),
     origin: usize,
+    own: usize,
+    centres: &[f32],
 ) -> (f32, f32) {
     let mut sum = 0.0f32;
     let mut weighted = 0.0f32;
     for k in lo..=hi {
+        let x = k as f32;
+        let distance = |c: f32| (x - c).abs();
+        let mine = centres.get(own).map_or(0.0, |&c| distance(c));
+        let nearer_other = centres
+            .iter()
+            .enumerate()
+            .any(|(i, &c)| i != own && distance(c) < mine);
+        if nearer_other {
+            continue;
+        }
         let p = spectrum.mean_square(k).unwrap_or(0.0);
         sum += p;
         // Offsets from the peak line keep the products small and exact in f32.
-        weighted += (k as f32 - origin as f32) * p;
+        weighted += (x - origin as f32) * p;
     }
     (sum, weighted)
 }
 
-/// Measures the tone whose peak line is `line` (1 ..= BINS - 1).
+/// A first centre for the tone at peak `line`: the power centroid of the line and its larger
+/// neighbour. It only has to pick the lines to sum, so its bias towards their midpoint does no
+/// harm.
+fn first_centre<const BINS: usize>(spectrum: &Spectrum<BINS>, line: usize) -> f32 {
+    let below = spectrum.mean_square(line - 1).unwrap_or(0.0);
+    let above = spectrum.mean_square(line + 1).unwrap_or(0.0);
+    let pair = if above > below {
+        (line, (line + 1).min(BINS - 1))
+    } else {
+        ((line - 1).max(1), line)
+    };
+    let (sum, weighted) = moments(spectrum, pair, line, 0, &[]);
+    if sum > 0.0 && sum.is_finite() {
+        line as f32 + weighted / sum
+    } else {
+        line as f32
+    }
+}
+
+/// Measures tone `own` (peak `line`, 1 ..= BINS - 1) of the tones whose first centres are
+/// `centres`.
 fn measure<const BINS: usize>(
     spectrum: &Spectrum<BINS>,
     line: usize,
+    own: usize,
+    centres: &[f32],
     lobe: f32,
     bin_hz: f32,
 ) -> Tone {
     // Casts saturate: a negative line becomes 0, then 1.
     let clamp = |k: f32| (k.max(1.0) as usize).min(BINS - 1);
-    // A first centre: the centroid of the peak line and its larger neighbour. It only has to
-    // pick the lines below, so its bias towards their midpoint does no harm.
-    let below = spectrum.mean_square(line - 1).unwrap_or(0.0);
-    let above = spectrum.mean_square(line + 1).unwrap_or(0.0);
-    let pair = if above > below {
-        (line, line + 1)
-    } else {
-        (line - 1, line)
-    };
-    let (lo, hi) = (pair.0.max(1), pair.1.min(BINS - 1));
-    let (sum, weighted) = moments(spectrum, lo, hi, line);
-    let centre = if sum > 0.0 && sum.is_finite() {
-        line as f32 + weighted / sum
-    } else {
-        line as f32
-    };
-    // ... then the 2 H + 2 lines from floor(centre) - H to floor(centre) + H + 1, with H the
-    // first null rounded up: they cover the whole main lobe, centre +- null, wherever the
-    // tone falls, and sit symmetrically around a tone half a bin off a line (the worst case
-    // of scalloping). The choice only jumps where the tone is on a line, and there the
-    // outermost lines are nulls.
+    // The 2 H + 2 lines from floor(centre) - H to floor(centre) + H + 1, with H the first
+    // null rounded up: they cover the whole main lobe, centre +- null, wherever the tone
+    // falls, and sit symmetrically around a tone half a bin off a line (the worst case of
+    // scalloping). The choice only jumps where the tone is on a line, and there the
+    // outermost lines are nulls. Lines nearer another tone's centre are that tone's.
+    let centre = centres.get(own).copied().unwrap_or(line as f32);
     let reach = libm::ceilf(lobe - 1e-3);
     let base = libm::floorf(centre);
-    let lo = clamp(base - reach);
-    let hi = clamp(base + reach + 1.0);
-    let (sum, weighted) = moments(spectrum, lo, hi, line);
+    let lines = (clamp(base - reach), clamp(base + reach + 1.0));
+    let (sum, weighted) = moments(spectrum, lines, line, own, centres);
     let (frequency_bins, mean_square) = if sum > 0.0 && sum.is_finite() {
         (line as f32 + weighted / sum, sum)
     } else {
@@ -343,8 +381,8 @@ fn measure<const BINS: usize>(
         peak: rms * core::f32::consts::SQRT_2,
         level_db: 20.0 * libm::log10f(rms),
         peak_line: line,
-        first_line: lo,
-        last_line: hi,
+        first_line: lines.0,
+        last_line: lines.1,
     }
 }
 
@@ -434,8 +472,14 @@ mod tests {
                     "{name} offset {offset}: amplitude {a:+.2e}, frequency {f:+.2e} bins, \
                      peak line alone {line:+.2e}"
                 );
-                assert!(a.abs() < amplitude_tolerance, "{name} {offset}: amplitude {a}");
-                assert!(f.abs() < frequency_tolerance, "{name} {offset}: frequency {f}");
+                assert!(
+                    a.abs() < amplitude_tolerance,
+                    "{name} {offset}: amplitude {a}"
+                );
+                assert!(
+                    f.abs() < frequency_tolerance,
+                    "{name} {offset}: frequency {f}"
+                );
             }
         }
         // The peak line alone at half a bin: Hann -1.4236 dB (REFERENCES.md §2.2 example B).
@@ -499,11 +543,28 @@ mod tests {
             assert!((tone.peak as f64 / a - 1.0).abs() < 0.01, "{tone:?}");
             assert!((tone.frequency_hz as f64 - f).abs() < 0.02, "{tone:?}");
         }
+        // One main-lobe width apart (4.1 bins), the lobes share lines; each line goes to the
+        // nearer tone. What each one loses or gains is its neighbour's response beyond the
+        // midpoint, 2.05 bins out: Hann's null (at 2) and first sidelobe (-31.5 dB, a power
+        // of 7e-4 per line, REFERENCES.md §1.4), so at most about 1e-3 of the power, 5e-4 of
+        // the amplitude (measured 1.1e-4, and 1e-4 bins): allowed 1e-3 and 0.01 bins. Without
+        // the split, each would take two of the other's lobe lines: 10 % and 0.5 bins off.
+        let s = spectrum_of(&HANN, &tones(4 * N, &[(1.0, 60.3), (0.8, 64.4)]));
+        let found = strongest_tones::<4, BINS>(&s, &search.with_range_db(30.0)).unwrap();
+        for t in &found {
+            println!("{:.4} Hz, peak {:.5}", t.frequency_hz, t.peak);
+        }
+        assert_eq!(found.len(), 2, "{found:?}");
+        for (tone, (a, f)) in found.iter().zip([(1.0, 60.3), (0.8, 64.4)]) {
+            assert!((tone.peak as f64 / a - 1.0).abs() < 1e-3, "{tone:?}");
+            assert!((tone.frequency_hz as f64 - f).abs() < 0.01, "{tone:?}");
+        }
         // Closer than a main-lobe width, the weaker one is taken for part of the stronger.
         let s = spectrum_of(&HANN, &tones(4 * N, &[(1.0, 100.2), (0.5, 103.0)]));
         let found = strongest_tones::<4, BINS>(&s, &search.with_range_db(40.0)).unwrap();
-        assert!(found.iter().all(|t| (t.frequency_hz - 100.2).abs() > 5.0
-            || t.peak_line == found[0].peak_line));
+        assert!(found
+            .iter()
+            .all(|t| (t.frequency_hz - 100.2).abs() > 5.0 || t.peak_line == found[0].peak_line));
         assert!((found[0].frequency_hz - 100.2).abs() < 1.0);
     }
 
@@ -545,15 +606,21 @@ mod tests {
             .map(|(&t, &e)| (t as f64 + e) as f32)
             .collect();
         let s = spectrum_of(&HANN, &x);
-        let search = ToneSearch::for_shape(Shape::Hann).unwrap().with_range_db(30.0);
+        let search = ToneSearch::for_shape(Shape::Hann)
+            .unwrap()
+            .with_range_db(30.0);
         let found = strongest_tones::<8, BINS>(&s, &search).unwrap();
         println!("{found:?}");
         assert_eq!(found.len(), 1);
         let expected = (0.5f64 + 12.0 * 0.01 / N as f64).sqrt() * 2f64.sqrt();
-        assert!((found[0].peak as f64 - expected).abs() < 5e-3, "{:?}", found[0]);
+        assert!(
+            (found[0].peak as f64 - expected).abs() < 5e-3,
+            "{:?}",
+            found[0]
+        );
         assert!((found[0].frequency_hz as f64 - 200.3).abs() < 0.01);
-        let everything = strongest_tones::<8, BINS>(&s, &search.with_range_db(f32::INFINITY))
-            .unwrap();
+        let everything =
+            strongest_tones::<8, BINS>(&s, &search.with_range_db(f32::INFINITY)).unwrap();
         assert_eq!(everything.len(), 8);
         assert_eq!(everything[0], found[0]);
         for t in &everything[1..] {
@@ -592,7 +659,9 @@ mod tests {
         let mut values = [f32::NAN; BINS];
         values[10] = 1.0;
         let nan = Spectrum::new(values, Scale::Rms, Correction::Amplitude, *zeros.info()).unwrap();
-        assert!(strongest_tones::<4, BINS>(&nan, &search).unwrap().is_empty());
+        assert!(strongest_tones::<4, BINS>(&nan, &search)
+            .unwrap()
+            .is_empty());
         let bad = [
             (ToneSearch::new(0.2), ConfigError::WindowParameter),
             (ToneSearch::new(f32::NAN), ConfigError::WindowParameter),
@@ -603,9 +672,15 @@ mod tests {
             (search.with_range_db(f32::NAN), ConfigError::ToneFloor),
         ];
         for (s, error) in bad {
-            assert_eq!(strongest_tones::<4, BINS>(&zeros, &s).err(), Some(error), "{s:?}");
+            assert_eq!(
+                strongest_tones::<4, BINS>(&zeros, &s).err(),
+                Some(error),
+                "{s:?}"
+            );
         }
-        assert!(strongest_tones::<0, BINS>(&zeros, &search).unwrap().is_empty());
+        assert!(strongest_tones::<0, BINS>(&zeros, &search)
+            .unwrap()
+            .is_empty());
     }
 
     // reference: REFERENCES.md §1.4 "1st null" (lib: exact DTFT with root finding).
@@ -638,7 +713,10 @@ mod tests {
             let got = main_lobe_half_width_bins(Shape::Tukey { alpha }).unwrap() as f64;
             assert!(got >= null && got < null + 0.2, "tukey {alpha}: {got}");
         }
-        assert_eq!(main_lobe_half_width_bins(Shape::Tukey { alpha: 1.0 }), Some(2.0));
+        assert_eq!(
+            main_lobe_half_width_bins(Shape::Tukey { alpha: 1.0 }),
+            Some(2.0)
+        );
         assert!(ToneSearch::for_shape(Shape::Force {
             width: 0.1,
             taper: 0.0
