@@ -47,7 +47,8 @@ impl SpectrumPlot<'_> {
             .cloned()
             .fold(0.0, f64::max)
             .max(1.0);
-        let top_db = (db.iter().cloned().fold(f64::MIN, f64::max) / 10.0).ceil() * 10.0;
+        // `+ 0.0` turns a top of -0 into 0, so the tick reads "0", not "-0".
+        let top_db = (db.iter().cloned().fold(f64::MIN, f64::max) / 10.0).ceil() * 10.0 + 0.0;
         // Show 100 dB below the top, or the whole trace if it spans less.
         let floor = db.iter().cloned().fold(f64::MAX, f64::min);
         let bottom_db = ((floor / 10.0).floor() * 10.0).max(top_db - 100.0);
