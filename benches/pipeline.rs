@@ -38,8 +38,13 @@ fn pipeline_one<const N: usize, const BINS: usize>(c: &mut Criterion, window: &'
     let input = block::<N>();
     let report = analyzer.push(&input);
     assert_eq!((report.blocks, report.averaged), (1, 1));
-    let peak = analyzer.spectrum(Scale::Peak, Correction::Amplitude).values()[8];
-    assert!((peak - 1.0).abs() < 1e-4, "pipeline N = {N}: line 8 reads {peak}");
+    let peak = analyzer
+        .spectrum(Scale::Peak, Correction::Amplitude)
+        .values()[8];
+    assert!(
+        (peak - 1.0).abs() < 1e-4,
+        "pipeline N = {N}: line 8 reads {peak}"
+    );
 
     let mut group = c.benchmark_group("pipeline");
     group.bench_with_input(BenchmarkId::from_parameter(N), &input, |b, input| {
@@ -53,7 +58,11 @@ macro_rules! bare_one {
         let input = block::<$n>();
         let mut check = input;
         let x8 = $f(&mut check)[8];
-        assert!((x8.re - $n as f32 / 2.0).abs() < 1e-2 * $n as f32 / 2.0, "bare N = {}", $n);
+        assert!(
+            (x8.re - $n as f32 / 2.0).abs() < 1e-2 * $n as f32 / 2.0,
+            "bare N = {}",
+            $n
+        );
         let mut group = $c.benchmark_group("bare_rfft");
         group.bench_with_input(BenchmarkId::from_parameter($n), &input, |b, input| {
             b.iter(|| {
