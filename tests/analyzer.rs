@@ -266,6 +266,9 @@ fn example_c_white_noise_psd() {
         (interior / expected - 1.0).abs() < tolerance,
         "mean PSD {interior:e} vs {expected:e} (tolerance {tolerance})"
     );
+    println!(
+        "white noise: mean PSD {interior:.6e} (expected {expected:.6e}), tolerance {tolerance:.4}"
+    );
     let nyquist = psd.values()[512] as f64 / (variance / FS as f64);
     assert!(
         (nyquist - 1.0).abs() < 4.0 * 2f64.sqrt() * per_line,
@@ -274,6 +277,7 @@ fn example_c_white_noise_psd() {
     let total: f64 =
         psd.values().iter().map(|&p| p as f64).sum::<f64>() * psd.bin_width_hz() as f64;
     assert!((total / variance - 1.0).abs() < tolerance, "total {total}");
+    println!("white noise: Nyquist/expected {nyquist:.4}, sum PSD df {total:.6}");
     let rms = analyzer.overall_rms(true) as f64;
     assert!((rms * rms / total - 1.0).abs() < 1e-5, "overall rms {rms}");
     // 'spectrum' (amplitude-corrected power) reads noise high by NENBW: 3 sigma^2 / N for Hann.
@@ -336,6 +340,7 @@ fn example_e_welch_variance() {
         / lines.len() as f64;
     let independent = lines.len() as f64 / HANN.factors().enbw_bins;
     let tolerance = 4.0 * (2.0 / t).sqrt() / independent.sqrt();
+    println!("Welch variance: Monte Carlo {normalised:.5}, predicted {predicted:.5}, tolerance {tolerance:.4}");
     assert!(
         (normalised / predicted - 1.0).abs() < tolerance,
         "Monte Carlo {normalised} vs Welch {predicted} (tolerance {tolerance})"
