@@ -26,8 +26,9 @@
 //!    around a first centroid (of the peak line and its larger neighbour), so that they sit
 //!    as symmetrically around the tone as the line grid allows.
 //!
-//! Everything is `f32` over `2 H + 2` lines per tone, after a scan of the search range per
-//! tone; no heap (the result is a [`heapless::Vec`] of capacity `K`).
+//! Cost: per tone, one scan of the search range (about three line reads of one `f32`
+//! multiply each, per line) and `2 H + 2` lines summed; the conversion to mean squares is
+//! worked out once per call. No heap: the result is a [`heapless::Vec`] of capacity `K`.
 //!
 //! # Accuracy (measured)
 //!
@@ -77,7 +78,7 @@
 //! ```
 
 use crate::error::ConfigError;
-use crate::spectrum::scale::Spectrum;
+use crate::spectrum::scale::{MeanSquares, Spectrum};
 use crate::window::Shape;
 
 /// One tone found in a spectrum. Amplitudes are in the spectrum's unit.
@@ -233,6 +234,8 @@ pub fn strongest_tones<const K: usize, const BINS: usize>(
     }
     let bin_hz = spectrum.bin_width_hz();
     let lobe = search.lobe_half_width_bins;
+    // The conversion to mean squares, worked out once for the many line reads below.
+    let lines = spectrum.mean_squares();
     // Lines, not Hz, from here on. Float-to-int casts saturate, so huge or infinite limits
     // are safe.
     let first = (libm::ceilf(search.min_frequency_hz / bin_hz) as usize).max(1);
@@ -242,7 +245,7 @@ pub fn strongest_tones<const K: usize, const BINS: usize>(
     let mut peaks: heapless::Vec<usize, K> = heapless::Vec::new();
     let mut strongest_line_power = None;
     while !peaks.is_full() {
-        let Some((line, line_power)) = strongest_free_maximum(spectrum, first, last, &peaks, lobe)
+        let Some((line, line_power)) = strongest_free_maximum(&lines, first, last, &peaks, lobe)
         else {
             break;
         };
@@ -256,10 +259,10 @@ pub fn strongest_tones<const K: usize, const BINS: usize>(
     }
     let mut centres: heapless::Vec<f32, K> = heapless::Vec::new();
     for &line in &peaks {
-        let _ = centres.push(first_centre(spectrum, line));
+        let _ = centres.push(first_centre(&lines, line));
     }
     for (i, &line) in peaks.iter().enumerate() {
-        let tone = measure(spectrum, line, i, &centres, lobe, bin_hz);
+        let tone = measure(&lines, line, i, &centres, lobe, bin_hz);
         if tone.rms >= search.floor_rms {
             let _ = tones.push(tone);
         }
@@ -270,13 +273,13 @@ pub fn strongest_tones<const K: usize, const BINS: usize>(
 /// The strongest local maximum in `first ..= last` that is not closer than a main-lobe width
 /// (`2 lobe`) to a line already taken, with its mean square.
 fn strongest_free_maximum<const BINS: usize>(
-    spectrum: &Spectrum<BINS>,
+    lines: &MeanSquares<'_, BINS>,
     first: usize,
     last: usize,
     taken: &[usize],
     lobe: f32,
 ) -> Option<(usize, f32)> {
-    let power = |k: usize| spectrum.mean_square(k).unwrap_or(0.0);
+    let power = |k: usize| lines.get(k).unwrap_or(0.0);
     let mut best: Option<(usize, f32)> = None;
     for k in first..=last {
         let p = power(k);
@@ -301,7 +304,7 @@ fn strongest_free_maximum<const BINS: usize>(
 /// Sum and centroid of the lines `lo ..= hi` that lie nearer `centres[own]` than any other
 /// centre: `(sum P, sum (k - origin) P)`.
 fn moments<const BINS: usize>(
-    spectrum: &Spectrum<BINS>,
+    lines: &MeanSquares<'_, BINS>,
     (lo, hi): (usize, usize),
     origin: usize,
     own: usize,
@@ -320,7 +323,7 @@ fn moments<const BINS: usize>(
         if nearer_other {
             continue;
         }
-        let p = spectrum.mean_square(k).unwrap_or(0.0);
+        let p = lines.get(k).unwrap_or(0.0);
         sum += p;
         // Offsets from the peak line keep the products small and exact in f32.
         weighted += (x - origin as f32) * p;
@@ -331,15 +334,15 @@ fn moments<const BINS: usize>(
 /// A first centre for the tone at peak `line`: the power centroid of the line and its larger
 /// neighbour. It only has to pick the lines to sum, so its bias towards their midpoint does no
 /// harm.
-fn first_centre<const BINS: usize>(spectrum: &Spectrum<BINS>, line: usize) -> f32 {
-    let below = spectrum.mean_square(line - 1).unwrap_or(0.0);
-    let above = spectrum.mean_square(line + 1).unwrap_or(0.0);
+fn first_centre<const BINS: usize>(lines: &MeanSquares<'_, BINS>, line: usize) -> f32 {
+    let below = lines.get(line - 1).unwrap_or(0.0);
+    let above = lines.get(line + 1).unwrap_or(0.0);
     let pair = if above > below {
         (line, (line + 1).min(BINS - 1))
     } else {
         ((line - 1).max(1), line)
     };
-    let (sum, weighted) = moments(spectrum, pair, line, 0, &[]);
+    let (sum, weighted) = moments(lines, pair, line, 0, &[]);
     if sum > 0.0 && sum.is_finite() {
         line as f32 + weighted / sum
     } else {
@@ -350,7 +353,7 @@ fn first_centre<const BINS: usize>(spectrum: &Spectrum<BINS>, line: usize) -> f3
 /// Measures tone `own` (peak `line`, 1 ..= BINS - 1) of the tones whose first centres are
 /// `centres`.
 fn measure<const BINS: usize>(
-    spectrum: &Spectrum<BINS>,
+    lines: &MeanSquares<'_, BINS>,
     line: usize,
     own: usize,
     centres: &[f32],
@@ -367,8 +370,8 @@ fn measure<const BINS: usize>(
     let centre = centres.get(own).copied().unwrap_or(line as f32);
     let reach = libm::ceilf(lobe - 1e-3);
     let base = libm::floorf(centre);
-    let lines = (clamp(base - reach), clamp(base + reach + 1.0));
-    let (sum, weighted) = moments(spectrum, lines, line, own, centres);
+    let span = (clamp(base - reach), clamp(base + reach + 1.0));
+    let (sum, weighted) = moments(lines, span, line, own, centres);
     let (frequency_bins, mean_square) = if sum > 0.0 && sum.is_finite() {
         (line as f32 + weighted / sum, sum)
     } else {
@@ -381,8 +384,8 @@ fn measure<const BINS: usize>(
         peak: rms * core::f32::consts::SQRT_2,
         level_db: 20.0 * libm::log10f(rms),
         peak_line: line,
-        first_line: lines.0,
-        last_line: lines.1,
+        first_line: span.0,
+        last_line: span.1,
     }
 }
 

@@ -134,18 +134,72 @@ impl LineGains {
 /// Converts `values` (`N/2 + 1` lines, DC first) from one set of gains to another. The one
 /// conversion between scales: everything that changes a level goes through it.
 pub fn rescale(values: &mut [f32], from: LineGains, to: LineGains) {
-    let interior = (to.interior / from.interior) as f32;
-    let edge = (to.edge / from.edge) as f32;
-    let last = values.len().saturating_sub(1);
+    let conversion = Conversion::between(from, to);
+    let lines = values.len();
     for (k, v) in values.iter_mut().enumerate() {
-        let factor = if k == 0 || k == last { edge } else { interior };
-        let power = if from.amplitude { *v * *v } else { *v };
+        *v = conversion.apply(*v, k, lines);
+    }
+}
+
+/// The conversion [`rescale`] applies, worked out once, for reading single lines in a loop
+/// without converting a whole spectrum (see [`Spectrum::mean_squares`]).
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Conversion {
+    interior: f32,
+    edge: f32,
+    from_amplitude: bool,
+    to_amplitude: bool,
+}
+
+impl Conversion {
+    /// From values on `from` to values on `to`.
+    pub fn between(from: LineGains, to: LineGains) -> Self {
+        Self {
+            interior: (to.interior / from.interior) as f32,
+            edge: (to.edge / from.edge) as f32,
+            from_amplitude: from.amplitude,
+            to_amplitude: to.amplitude,
+        }
+    }
+
+    /// Converts `value`, the value of line `bin` of `lines` (DC first; the first and the last
+    /// line use the edge gains).
+    #[inline]
+    pub fn apply(&self, value: f32, bin: usize, lines: usize) -> f32 {
+        let factor = if bin == 0 || bin + 1 >= lines {
+            self.edge
+        } else {
+            self.interior
+        };
+        let power = if self.from_amplitude {
+            value * value
+        } else {
+            value
+        };
         let scaled = power * factor;
-        *v = if to.amplitude {
+        if self.to_amplitude {
             libm::sqrtf(scaled)
         } else {
             scaled
-        };
+        }
+    }
+}
+
+/// The lines of a spectrum read as energy-corrected mean squares, with the conversion worked
+/// out once ([`Spectrum::mean_squares`]).
+#[derive(Clone, Copy, Debug)]
+pub struct MeanSquares<'a, const BINS: usize> {
+    values: &'a [f32; BINS],
+    conversion: Conversion,
+}
+
+impl<const BINS: usize> MeanSquares<'_, BINS> {
+    /// Line `bin` as a mean square, units^2; `None` beyond Nyquist.
+    #[inline]
+    pub fn get(&self, bin: usize) -> Option<f32> {
+        let value = *self.values.get(bin)?;
+        Some(self.conversion.apply(value, bin, BINS))
     }
 }
 
@@ -359,7 +413,11 @@ impl<const BINS: usize> Spectrum<BINS> {
     /// assert_eq!(peak.mean_square(33), None);
     /// ```
     pub fn mean_square(&self, bin: usize) -> Option<f32> {
-        let value = *self.values.get(bin)?;
+        self.mean_squares().get(bin)
+    }
+
+    /// [`Spectrum::mean_square`] for many lines: the conversion is worked out once.
+    pub fn mean_squares(&self) -> MeanSquares<'_, BINS> {
         let to = LineGains::of(
             Scale::Power,
             Correction::Energy,
@@ -367,19 +425,10 @@ impl<const BINS: usize> Spectrum<BINS> {
             self.info.sample_rate_hz,
             self.info.block_len,
         );
-        // A one-line slice is all "edge" to `rescale`, so hand it the gains of this line's kind.
-        let (from, to) = if bin == 0 || bin + 1 == BINS {
-            (self.gains(), to)
-        } else {
-            let interior = |g: LineGains| LineGains {
-                edge: g.interior,
-                ..g
-            };
-            (interior(self.gains()), interior(to))
-        };
-        let mut line = [value];
-        rescale(&mut line, from, to);
-        Some(line[0])
+        MeanSquares {
+            values: &self.values,
+            conversion: Conversion::between(self.gains(), to),
+        }
     }
 
     /// The same spectrum on another scale and correction (through [`rescale`]).
