@@ -398,6 +398,10 @@ fn errors_exit_non_zero_and_write_nothing() {
     ]);
     assert_eq!(code, 1, "{stderr}");
     assert!(!out.exists());
+    // Asking for more blocks than there are is a note, not an error.
+    let (code, _, stderr) = run(&["--input", w, "--n", "256", "--average", "linear:1000"]);
+    assert_eq!(code, 0, "{stderr}");
+    assert!(stderr.contains("holds 31 usable blocks"), "{stderr}");
     // And the good case writes both.
     let (code, _, stderr) = run(&[
         "--input",

@@ -445,6 +445,14 @@ fn run<const N: usize, const BINS: usize>(
             status.overloaded, status.blocks_seen
         ));
     }
+    if let Some(Averaging::Linear { count, .. }) = options.averaging {
+        if status.blocks_averaged < count {
+            notes.push(format!(
+                "--average linear:{count}: the recording holds {} usable blocks; all are averaged",
+                status.blocks_averaged
+            ));
+        }
+    }
     if status.blocks_averaged == 0 {
         return Err(Failure::runtime(format!(
             "{}: no block could be averaged ({} of {} had non-finite samples)",
