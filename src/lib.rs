@@ -21,6 +21,10 @@
 //! engineering units (input times sensitivity), and carry the window [`Correction`] they were
 //! read with; [`spectrum::scale`] tabulates every factor.
 //!
+//! [`strongest_tones`] ([`analysis::peaks`]) reads the strongest lines of a spectrum as tones:
+//! frequency from the power centroid and amplitude from the power in the main lobe, so that
+//! neither depends on where a tone falls between lines, for any window.
+//!
 //! ## Optional features
 //!
 //! | feature | default | what it adds |
@@ -56,6 +60,7 @@ pub mod spectrum;
 pub mod window;
 
 pub use analysis::bearing::{BearingGeometry, DefectFrequencies, DefectOrders};
+pub use analysis::peaks::{strongest_tones, Tone, ToneSearch};
 pub use error::ConfigError;
 pub use window::{Factors, Shape, Symmetry, Window, WindowQ15};
 

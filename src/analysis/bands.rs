@@ -123,9 +123,10 @@ pub fn band_rms<const BINS: usize>(
         return Err(ConfigError::Frequency);
     }
     let times = integration.times();
+    let mean_squares = spectrum.mean_squares();
     let mut sum = 0.0f64;
     for bin in lines {
-        let mut mean_square = spectrum.line_mean_square(bin) as f64;
+        let mut mean_square = mean_squares.get(bin).unwrap_or(0.0) as f64;
         if times > 0 {
             let omega = core::f64::consts::TAU * (bin as f64 * bin_width as f64);
             let omega_squared = omega * omega;
@@ -142,8 +143,9 @@ pub fn band_rms<const BINS: usize>(
 
 /// Overall RMS over every line but DC: the AC level of the signal (Parseval).
 pub fn overall_rms<const BINS: usize>(spectrum: &Spectrum<BINS>) -> f32 {
+    let mean_squares = spectrum.mean_squares();
     let sum: f64 = (1..BINS)
-        .map(|bin| spectrum.line_mean_square(bin) as f64)
+        .map(|bin| mean_squares.get(bin).unwrap_or(0.0) as f64)
         .sum();
     libm::sqrt(sum) as f32
 }

@@ -3,4 +3,5 @@
 pub mod bands;
 pub mod bearing;
 pub mod envelope;
+pub mod peaks;
 pub mod stats;

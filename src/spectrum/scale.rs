@@ -134,23 +134,72 @@ impl LineGains {
 /// Converts `values` (`N/2 + 1` lines, DC first) from one set of gains to another. The one
 /// conversion between scales: everything that changes a level goes through it.
 pub fn rescale(values: &mut [f32], from: LineGains, to: LineGains) {
-    let interior = (to.interior / from.interior) as f32;
-    let edge = (to.edge / from.edge) as f32;
-    let last = values.len().saturating_sub(1);
+    let conversion = Conversion::between(from, to);
+    let lines = values.len();
     for (k, v) in values.iter_mut().enumerate() {
-        let factor = if k == 0 || k == last { edge } else { interior };
-        *v = rescale_line(*v, factor, from.amplitude, to.amplitude);
+        *v = conversion.apply(*v, k, lines);
     }
 }
 
-/// One line of [`rescale`]: to power, times the gain ratio, back to amplitude if wanted.
-fn rescale_line(value: f32, factor: f32, from_amplitude: bool, to_amplitude: bool) -> f32 {
-    let power = if from_amplitude { value * value } else { value };
-    let scaled = power * factor;
-    if to_amplitude {
-        libm::sqrtf(scaled)
-    } else {
-        scaled
+/// The conversion [`rescale`] applies, worked out once, for reading single lines in a loop
+/// without converting a whole spectrum (see [`Spectrum::mean_squares`]).
+#[derive(Clone, Copy, Debug, PartialEq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Conversion {
+    interior: f32,
+    edge: f32,
+    from_amplitude: bool,
+    to_amplitude: bool,
+}
+
+impl Conversion {
+    /// From values on `from` to values on `to`.
+    pub fn between(from: LineGains, to: LineGains) -> Self {
+        Self {
+            interior: (to.interior / from.interior) as f32,
+            edge: (to.edge / from.edge) as f32,
+            from_amplitude: from.amplitude,
+            to_amplitude: to.amplitude,
+        }
+    }
+
+    /// Converts `value`, the value of line `bin` of `lines` (DC first; the first and the last
+    /// line use the edge gains).
+    #[inline]
+    pub fn apply(&self, value: f32, bin: usize, lines: usize) -> f32 {
+        let factor = if bin == 0 || bin + 1 >= lines {
+            self.edge
+        } else {
+            self.interior
+        };
+        let power = if self.from_amplitude {
+            value * value
+        } else {
+            value
+        };
+        let scaled = power * factor;
+        if self.to_amplitude {
+            libm::sqrtf(scaled)
+        } else {
+            scaled
+        }
+    }
+}
+
+/// The lines of a spectrum read as energy-corrected mean squares, with the conversion worked
+/// out once ([`Spectrum::mean_squares`]).
+#[derive(Clone, Copy, Debug)]
+pub struct MeanSquares<'a, const BINS: usize> {
+    values: &'a [f32; BINS],
+    conversion: Conversion,
+}
+
+impl<const BINS: usize> MeanSquares<'_, BINS> {
+    /// Line `bin` as a mean square, units^2; `None` beyond Nyquist.
+    #[inline]
+    pub fn get(&self, bin: usize) -> Option<f32> {
+        let value = *self.values.get(bin)?;
+        Some(self.conversion.apply(value, bin, BINS))
     }
 }
 
@@ -339,21 +388,36 @@ impl<const BINS: usize> Spectrum<BINS> {
         )
     }
 
-    /// The same spectrum on another scale and correction (through [`rescale`]).
-    pub fn to_scale(&self, scale: Scale, correction: Correction) -> Self {
-        let mut out = self.clone();
-        out.convert(scale, correction);
-        out
+    /// Line `bin` as an energy-corrected mean square (units^2), whatever this spectrum's own
+    /// scale: [`Scale::Power`] with [`Correction::Energy`], through [`rescale`]. Summed over
+    /// lines it is the power in that band, independent of the window and of where a tone
+    /// falls between lines while its main lobe stays inside (REFERENCES.md §2.1). `None`
+    /// beyond Nyquist.
+    ///
+    /// ```
+    /// use leakless::{Correction, Scale, Shape, Spectrum, SpectrumInfo, Window};
+    ///
+    /// const HANN: Window<64> = Window::new(Shape::Hann);
+    /// let info = SpectrumInfo {
+    ///     sample_rate_hz: 64.0,
+    ///     block_len: 64,
+    ///     factors: *HANN.factors(),
+    ///     unit: "g",
+    ///     averages: 1,
+    /// };
+    /// let mut values = [0.0f32; 33];
+    /// values[4] = 1.0; // a 1 g peak tone on line 4, amplitude-corrected
+    /// let peak = Spectrum::new(values, Scale::Peak, Correction::Amplitude, info).unwrap();
+    /// // Energy correction reads the peak line low by the ENBW (1.5 lines for Hann).
+    /// assert!((peak.mean_square(4).unwrap() - 0.5 / 1.5).abs() < 1e-6);
+    /// assert_eq!(peak.mean_square(33), None);
+    /// ```
+    pub fn mean_square(&self, bin: usize) -> Option<f32> {
+        self.mean_squares().get(bin)
     }
 
-    /// The energy-corrected mean square of line `bin` in units^2 (0 past the last line):
-    /// the quantity whose sum over lines is the power in a band, whatever the scale, window or
-    /// where a tone falls between lines. Same gains as [`rescale`].
-    pub fn line_mean_square(&self, bin: usize) -> f32 {
-        let Some(&value) = self.values.get(bin) else {
-            return 0.0;
-        };
-        let from = self.gains();
+    /// [`Spectrum::mean_square`] for many lines: the conversion is worked out once.
+    pub fn mean_squares(&self) -> MeanSquares<'_, BINS> {
         let to = LineGains::of(
             Scale::Power,
             Correction::Energy,
@@ -361,12 +425,17 @@ impl<const BINS: usize> Spectrum<BINS> {
             self.info.sample_rate_hz,
             self.info.block_len,
         );
-        let factor = if bin == 0 || bin + 1 == BINS {
-            to.edge / from.edge
-        } else {
-            to.interior / from.interior
-        };
-        rescale_line(value, factor as f32, from.amplitude, false)
+        MeanSquares {
+            values: &self.values,
+            conversion: Conversion::between(self.gains(), to),
+        }
+    }
+
+    /// The same spectrum on another scale and correction (through [`rescale`]).
+    pub fn to_scale(&self, scale: Scale, correction: Correction) -> Self {
+        let mut out = self.clone();
+        out.convert(scale, correction);
+        out
     }
 
     /// Converts in place (through [`rescale`]).
