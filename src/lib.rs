@@ -51,10 +51,13 @@ pub mod window;
 
 pub use analysis::bearing::{BearingGeometry, DefectFrequencies, DefectOrders};
 pub use error::ConfigError;
-pub use window::{Factors, Shape, Symmetry, Window, WindowQ15};
+pub use window::{Factors, Shape, Symmetry, Window, WindowQ15, WindowQ31};
 
 #[cfg(feature = "f32")]
-pub use spectrum::analyzer::{Analyzer, Config, Overlap, PushReport, Stage, Status};
+pub use spectrum::analyzer::Analyzer;
 pub use spectrum::average::{Averaging, WhenDone};
 pub use spectrum::condition::{Detrend, OverloadPolicy};
+pub use spectrum::config::{Config, Overlap, PushReport, Stage, Status};
+#[cfg(feature = "fixed")]
+pub use spectrum::fixed::{AnalyzerQ15, AnalyzerQ31, FixedAnalyzer};
 pub use spectrum::scale::{Correction, Scale, Spectrum, SpectrumInfo};
