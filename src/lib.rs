@@ -41,6 +41,7 @@
 )]
 
 pub mod analysis;
+pub mod compare;
 #[cfg(feature = "demo")]
 pub mod demo;
 pub mod error;
