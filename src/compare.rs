@@ -283,8 +283,8 @@ mod tests {
         let mut tones = [0; 3];
         assert_eq!(strongest_tones(&reference, 3, &mut tones), 2);
         assert_eq!(&tones[..2], &[10, 20]);
-        for k in 8..=12 {
-            v[k] *= 4.0;
+        for line in &mut v[8..=12] {
+            *line *= 4.0;
         }
         let test = spectrum(v, Shape::Hann);
         let e = tone_level_error_db(&test, &reference, 10).unwrap();

@@ -183,6 +183,8 @@ pub struct PushReport {
 }
 
 impl PushReport {
+    /// Adds another report's counts (used by the analyzers' chunked pushes).
+    #[cfg_attr(not(any(feature = "f32", feature = "fixed")), allow(dead_code))]
     pub(crate) fn add(&mut self, other: PushReport) {
         self.blocks += other.blocks;
         self.averaged += other.averaged;

@@ -1,7 +1,7 @@
 //! The fixed-point streaming analyzers (feature `fixed`): [`AnalyzerQ15`] for 16-bit
-//! converters (`i16` counts, [`WindowQ15`], [`rfft_q15`](crate::fft::fixed::rfft_q15)) and
+//! converters (`i16` counts, [`WindowQ15`], [`rfft_q15`]) and
 //! [`AnalyzerQ31`] for 24-bit converters (`i32` counts, [`WindowQ31`],
-//! [`rfft_q31`](crate::fft::fixed::rfft_q31)).
+//! [`rfft_q31`]).
 //!
 //! They do what the float [`Analyzer`](crate::spectrum::analyzer::Analyzer) does, with the
 //! same [`Config`], [`ConfigError`](crate::ConfigError)s, [`Status`], [`PushReport`] and
