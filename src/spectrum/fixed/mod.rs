@@ -211,19 +211,19 @@ fixed_kernel!(WindowQ31, i32, i64, 31, rfft_q31);
 ///
 /// No allocation: `size_of` is the RAM cost. Q15 owns the overlap buffer (`2 N` bytes), the
 /// work block (`2 N`) and the power mantissas (`8 BINS`); Q31 `4 N + 4 N + 8 BINS`; plus
-/// 184 bytes of settings and counters on x86_64 (fewer on a 32-bit target).
+/// 152 bytes of settings and counters on a 32-bit target (184 on x86_64).
 ///
-/// | type | buffers | `size_of`, x86_64 |
-/// |---|---|---|
-/// | `AnalyzerQ15<256, 129>` | 2 056 | 2 240 (+9.0 %) |
-/// | `AnalyzerQ15<1024, 513>` | 8 200 | 8 384 (+2.2 %) |
-/// | `AnalyzerQ15<4096, 2049>` | 32 776 | 32 960 (+0.6 %) |
-/// | `AnalyzerQ31<256, 129>` | 3 080 | 3 264 (+6.0 %) |
-/// | `AnalyzerQ31<1024, 513>` | 12 296 | 12 480 (+1.5 %) |
-/// | `AnalyzerQ31<4096, 2049>` | 49 160 | 49 344 (+0.4 %) |
+/// | type | buffers | `size_of`, thumbv7em (32-bit) | `size_of`, x86_64 |
+/// |---|---|---|---|
+/// | `AnalyzerQ15<256, 129>` | 2 056 | 2 208 (+7.4 %) | 2 240 (+9.0 %) |
+/// | `AnalyzerQ15<1024, 513>` | 8 200 | 8 352 (+1.9 %) | 8 384 (+2.2 %) |
+/// | `AnalyzerQ15<4096, 2049>` | 32 776 | 32 928 (+0.5 %) | 32 960 (+0.6 %) |
+/// | `AnalyzerQ31<256, 129>` | 3 080 | 3 232 (+4.9 %) | 3 264 (+6.0 %) |
+/// | `AnalyzerQ31<1024, 513>` | 12 296 | 12 448 (+1.2 %) | 12 480 (+1.5 %) |
+/// | `AnalyzerQ31<4096, 2049>` | 49 160 | 49 312 (+0.3 %) | 49 344 (+0.4 %) |
 ///
-/// (Measured by `tests/fixed_analyzer.rs`, `ram_cost_is_the_buffers`; on a 32-bit target the
-/// settings take fewer bytes.)
+/// (x86_64: `tests/fixed_analyzer.rs`, `ram_cost_is_the_buffers`; thumbv7em: a `const` array
+/// of that length in a `no_std` crate, as DEVELOPERS.md describes; rustc 1.95.)
 ///
 /// # Example
 ///
