@@ -38,10 +38,27 @@
 //!
 //! # Accuracy
 //!
-//! Against the float analyzer on the same counts, measured by `tests/fixed_analyzer.rs` and
-//! `examples/fixed_vs_float.rs`; the error is the Q15 transform's own (a few output LSB per
-//! line, see [`crate::fft::fixed`]): the windowing adds one rounding at the block's full
-//! scale, the averaging rounds 62-bit mantissas.
+//! The error is the transform's own (a few output LSB per line, see [`crate::fft::fixed`]):
+//! the windowing adds one rounding at the block's full scale and the averaging rounds 62-bit
+//! mantissas. Against the f32 analyzer on the same 16-bit counts (Hann, 50 % overlap, 8
+//! linear averages; `cargo run --release --example fixed_vs_float`, which prints the tone and
+//! band level errors too):
+//!
+//! | signal | N | Q15 SNR | Q15 worst line | Q31 SNR |
+//! |---|---|---|---|---|
+//! | two tones, -1 dBFS and -60 dB below, off-bin | 256 / 1024 / 4096 | 75.0 / 71.6 / 74.7 dB | -87 to -88 dB | 144 to 148 dB |
+//! | the same 40 dB lower | 256 / 1024 / 4096 | 80.7 / 74.4 / 67.2 dB | -89 to -90 dB | 143 to 146 dB |
+//! | white noise, -20 dBFS | 256 / 1024 / 4096 | 84.9 / 81.7 / 81.0 dB | -72 to -78 dB | 144 dB |
+//!
+//! The Q31 figures are the f32 path's own error: the Q31 transform alone reaches 155 to
+//! 167 dB. `tests/fixed_analyzer.rs` asserts a bound derived from the Q15 noise floor for
+//! every scale and averaging mode.
+//!
+//! # Cost
+//!
+//! Outside the transform, four O(N) integer passes (scan, window, peak, fold into the
+//! average). On an x86-64 host the Q15 pipeline measured 1.15 to 1.3 times a bare
+//! `rfft_q15` of a copied block (`benches/fixed.rs`, N = 256 to 4096, shared machine).
 
 #![deny(clippy::float_arithmetic)]
 
