@@ -16,6 +16,7 @@ use crate::spectrum::scale::{Correction, LineGains, Scale, Spectrum, SpectrumInf
 /// (counts squared, before any window correction or one-sided fold) is
 /// `mantissas[k] * 2^exponent / divisor`.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct RawPower<'s, const BINS: usize> {
     /// One mantissa per line, DC first.
     pub mantissas: &'s [u64; BINS],
