@@ -25,6 +25,11 @@
 //! frequency from the power centroid and amplitude from the power in the main lobe, so that
 //! neither depends on where a tone falls between lines, for any window.
 //!
+//! Without an FPU (or to save RAM), [`AnalyzerQ15`] and [`AnalyzerQ31`] (feature `fixed`) run
+//! the same pipeline in integers on `i16` / `i32` counts, with the same [`Config`] and the
+//! same [`Spectrum`] read-out, plus integer levels for cores where float is costly;
+//! [`compare`] measures one spectrum against another (fixed point against float).
+//!
 //! ## Optional features
 //!
 //! | feature | default | what it adds |
@@ -49,6 +54,7 @@
 )]
 
 pub mod analysis;
+pub mod compare;
 #[cfg(feature = "demo")]
 pub mod demo;
 pub mod error;
@@ -62,12 +68,15 @@ pub mod window;
 pub use analysis::bearing::{BearingGeometry, DefectFrequencies, DefectOrders};
 pub use analysis::peaks::{strongest_tones, Tone, ToneSearch};
 pub use error::ConfigError;
-pub use window::{Factors, Shape, Symmetry, Window, WindowQ15};
+pub use window::{Factors, Shape, Symmetry, Window, WindowQ15, WindowQ31};
 
 #[cfg(feature = "f32")]
-pub use spectrum::analyzer::{Analyzer, Config, Overlap, PushReport, Stage, Status};
+pub use spectrum::analyzer::Analyzer;
 pub use spectrum::average::{Averaging, WhenDone};
 pub use spectrum::condition::{Detrend, OverloadPolicy};
+pub use spectrum::config::{Config, Overlap, PushReport, Stage, Status};
+#[cfg(feature = "fixed")]
+pub use spectrum::fixed::{AnalyzerQ15, AnalyzerQ31, FixedAnalyzer};
 pub use spectrum::scale::{Correction, Scale, Spectrum, SpectrumInfo};
 
 // The README's example runs as a doctest, so it cannot go stale.
