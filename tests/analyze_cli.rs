@@ -484,3 +484,137 @@ fn real_process_agrees_with_the_core() {
     assert!(!out.exists());
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+// --arith: the fixed-point paths, exactly as firmware runs them. Reference: the library's
+// AnalyzerQ15 / AnalyzerQ31 configured by hand as the options say, and the float analyzer on
+// the same counts for the analytic level (0.5 full scale on line 64 reads 0.5/sqrt(2) rms,
+// within 1e-4 as in `wav16_matches_the_library_and_analytic_truth`).
+#[cfg(feature = "fixed")]
+#[test]
+fn arith_q15_and_q31_match_the_fixed_analyzers() {
+    use leakless::{AnalyzerQ15, AnalyzerQ31, WindowQ15, WindowQ31};
+    let dir = scratch("arith");
+    let (fs, n, len) = (8000u32, 512usize, 24_000usize);
+    let x = signal(len, fs as f64, 0.5, 1000.0);
+    let counts: Vec<i16> = x.iter().map(|v| (v * 32768.0).round() as i16).collect();
+    let wav = dir.join("tone.wav");
+    write_wav_i16(&wav, fs, &counts);
+    let blocks = (len - n) / (n / 2) + 1;
+    let config = Config::new(fs as f32)
+        .with_overlap(n / 2)
+        .with_averaging(Averaging::Linear {
+            count: blocks as u32,
+            when_done: WhenDone::Hold,
+        })
+        .with_sensitivity(1.0 / 32768.0)
+        .with_full_scale(32767.0)
+        .with_overload_policy(OverloadPolicy::Average)
+        .with_unit("FS");
+    static HANN_Q15: WindowQ15<512> = WindowQ15::new(Shape::Hann);
+    static HANN_Q31: WindowQ31<512> = WindowQ31::new(Shape::Hann);
+    let mut q15: AnalyzerQ15<512, 257> = AnalyzerQ15::new(&HANN_Q15, config).unwrap();
+    q15.push(&counts);
+    let mut q31: AnalyzerQ31<512, 257> = AnalyzerQ31::new(&HANN_Q31, config).unwrap();
+    q31.push_counts(&counts);
+    for (arith, want) in [
+        ("q15", q15.spectrum(Scale::Rms, Correction::Amplitude)),
+        ("q31", q31.spectrum(Scale::Rms, Correction::Amplitude)),
+    ] {
+        let args = [
+            "--input",
+            wav.to_str().unwrap(),
+            "--n",
+            "512",
+            "--arith",
+            arith,
+        ];
+        let (code, stdout, stderr) = run(&args);
+        assert_eq!(code, 0, "{stderr}");
+        let (header, rows) = parse_csv(&stdout);
+        assert_same(&rows, &want);
+        assert!(
+            header.split(' ').any(|f| f == format!("arith={arith}")),
+            "{header}"
+        );
+        assert!(
+            !header.contains("quantised"),
+            "16-bit PCM goes in as counts: {header}"
+        );
+        assert!(
+            (rows[64].1 - 0.125f32.sqrt()).abs() < 1e-4,
+            "{arith}: {:?}",
+            rows[64]
+        );
+    }
+
+    // A float WAV is quantised first (16 bits for q15, 24 for q31), and the header says so.
+    let float_wav = dir.join("float.wav");
+    let xf: Vec<f32> = x.iter().map(|&v| v as f32).collect();
+    write_wav_f32(&float_wav, fs, &xf);
+    for (arith, bits) in [("q15", 16), ("q31", 24)] {
+        let args = [
+            "--input",
+            float_wav.to_str().unwrap(),
+            "--n",
+            "512",
+            "--arith",
+            arith,
+        ];
+        let (code, stdout, stderr) = run(&args);
+        assert_eq!(code, 0, "{stderr}");
+        let (header, rows) = parse_csv(&stdout);
+        assert!(
+            header.contains(&format!("quantised={bits}-bit")),
+            "{header}"
+        );
+        assert!(
+            stderr.contains(&format!("quantised to {bits}-bit")),
+            "{stderr}"
+        );
+        assert!(
+            (rows[64].1 - 0.125f32.sqrt()).abs() < 1e-4,
+            "{arith}: {:?}",
+            rows[64]
+        );
+    }
+    // Through q15 the float WAV's 16-bit codes are exactly the PCM file's counts.
+    let (_, from_float, _) = run(&[
+        "--input",
+        float_wav.to_str().unwrap(),
+        "--n",
+        "512",
+        "--arith",
+        "q15",
+    ]);
+    let (_, from_pcm, _) = run(&[
+        "--input",
+        wav.to_str().unwrap(),
+        "--n",
+        "512",
+        "--arith",
+        "q15",
+    ]);
+    assert_eq!(parse_csv(&from_float).1, parse_csv(&from_pcm).1);
+
+    // Non-finite samples have no code: an error, and nothing written.
+    let mut bad = xf.clone();
+    bad[100] = f32::NAN;
+    let bad_wav = dir.join("nan.wav");
+    write_wav_f32(&bad_wav, fs, &bad);
+    let out = dir.join("never.csv");
+    let (code, _, stderr) = run(&[
+        "--input",
+        bad_wav.to_str().unwrap(),
+        "--arith",
+        "q15",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 1, "{stderr}");
+    assert!(stderr.contains("NaN or infinite"), "{stderr}");
+    assert!(!out.exists());
+    let (code, _, stderr) = run(&["--input", wav.to_str().unwrap(), "--arith", "q7"]);
+    assert_eq!(code, 2);
+    assert!(stderr.contains("use f32, q15 or q31"), "{stderr}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -36,6 +36,11 @@ usage: analyze --input PATH [options]
   --correction KIND     amplitude (default for peak, rms, power) or energy (default, and the
                         only choice, for psd and asd)
   --detrend MODE        mean (default) or none
+  --arith KIND          f32 (default), q15 or q31: the arithmetic of the analysis, run as
+                        firmware would (16-bit PCM goes in as i16 counts; float input is read
+                        as a fraction of full scale and quantised first: to 16 bits for q15,
+                        to 24 bits for q31, as the header line says). q15 and q31 need the
+                        crate's `fixed` feature (cargo run --example analyze --features fixed)
   --gain FACTOR         multiplies every sample, after 16-bit WAV samples are mapped to
                         [-1, 1) (default 1)
   --unit NAME           unit of the samples after --gain (default: FS, full scale, for
@@ -96,6 +101,8 @@ pub struct Options {
     pub correction: Correction,
     /// `--detrend`.
     pub detrend: Detrend,
+    /// `--arith`.
+    pub arith: Arith,
     /// `--gain`.
     pub gain: f32,
     /// `--unit`.
@@ -104,6 +111,28 @@ pub struct Options {
     pub out: Option<PathBuf>,
     /// `--plot`.
     pub plot: Option<PathBuf>,
+}
+
+/// The arithmetic of the analysis (`--arith`).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Arith {
+    /// The float analyzer.
+    F32,
+    /// `AnalyzerQ15` on 16-bit counts.
+    Q15,
+    /// `AnalyzerQ31` on 16-bit counts, or float input quantised to 24 bits.
+    Q31,
+}
+
+impl Arith {
+    /// The name on the command line.
+    pub fn name(self) -> &'static str {
+        match self {
+            Arith::F32 => "f32",
+            Arith::Q15 => "q15",
+            Arith::Q31 => "q31",
+        }
+    }
 }
 
 /// What a successful run produced, not yet written anywhere.
@@ -127,6 +156,7 @@ pub fn parse(args: &[String]) -> Result<Option<Options>, Failure> {
     let mut scale = Scale::Rms;
     let mut correction = None;
     let mut detrend = Detrend::Mean;
+    let mut arith = Arith::F32;
     let mut gain = 1.0f32;
     let mut unit = None;
     let mut out = None;
@@ -212,6 +242,25 @@ pub fn parse(args: &[String]) -> Result<Option<Options>, Failure> {
                     }
                 }
             }
+            "--arith" => {
+                let text = value()?;
+                arith = match text.as_str() {
+                    "f32" => Arith::F32,
+                    "q15" => Arith::Q15,
+                    "q31" => Arith::Q31,
+                    _ => {
+                        return Err(Failure::usage(format!(
+                            "--arith {text}: use f32, q15 or q31"
+                        )))
+                    }
+                };
+                if arith != Arith::F32 && !cfg!(feature = "fixed") {
+                    return Err(Failure::usage(format!(
+                        "--arith {text}: this build has no fixed-point path; build with the \
+                         crate's `fixed` feature (cargo run --example analyze --features fixed)"
+                    )));
+                }
+            }
             "--gain" => {
                 let text = value()?;
                 gain = number(option, &text)?;
@@ -270,6 +319,7 @@ pub fn parse(args: &[String]) -> Result<Option<Options>, Failure> {
         scale,
         correction,
         detrend,
+        arith,
         gain,
         unit,
         out,
@@ -415,19 +465,30 @@ fn run<const N: usize, const BINS: usize>(
             options.input.display()
         )));
     }
-    let config = config(options, samples, sample_rate_hz, blocks as u32);
-    let mut analyzer: Analyzer<N, BINS> = Analyzer::new(&window, config).map_err(|e| match e {
-        leakless::ConfigError::Sensitivity => {
-            Failure::usage(format!("--gain {:e}: {e}", options.gain))
-        }
-        other => Failure::usage(format!("bad setting: {other}")),
-    })?;
-    match samples {
-        Samples::Counts(c) => analyzer.push_counts(c),
-        Samples::Float(f) => analyzer.push(f),
-    };
-    let status = analyzer.status();
     let mut notes = Vec::new();
+    let (status, spectrum, quantised) = match options.arith {
+        Arith::F32 => {
+            let config = config(options, samples, sample_rate_hz, blocks as u32);
+            let mut analyzer: Analyzer<N, BINS> =
+                Analyzer::new(&window, config).map_err(|e| bad_setting(options, e))?;
+            match samples {
+                Samples::Counts(c) => analyzer.push_counts(c),
+                Samples::Float(f) => analyzer.push(f),
+            };
+            let spectrum = analyzer.spectrum(options.scale, options.correction);
+            (analyzer.status(), spectrum, None)
+        }
+        Arith::Q15 | Arith::Q31 => {
+            run_fixed::<N, BINS>(options, samples, sample_rate_hz, blocks as u32)?
+        }
+    };
+    if let Some(Quantised { bits, clipped }) = quantised {
+        notes.push(format!(
+            "float samples were read as fractions of full scale and quantised to {bits}-bit \
+             counts for --arith {} ({clipped} beyond full scale, clipped)",
+            options.arith.name()
+        ));
+    }
     if channels > 1 {
         notes.push(format!(
             "the recording has {channels} channels; channel 1 was analysed"
@@ -461,10 +522,131 @@ fn run<const N: usize, const BINS: usize>(
             status.blocks_seen
         )));
     }
-    let spectrum = analyzer.spectrum(options.scale, options.correction);
-    let csv = to_csv(&spectrum, options, overlap);
+    let csv = to_csv(&spectrum, options, overlap, quantised.map(|q| q.bits));
     let svg = options.plot.as_ref().map(|_| to_svg(&spectrum, options));
     Ok(Outputs { csv, svg, notes })
+}
+
+/// A setting the analyzer refused, as a usage error.
+fn bad_setting(options: &Options, e: leakless::ConfigError) -> Failure {
+    match e {
+        leakless::ConfigError::Sensitivity => {
+            Failure::usage(format!("--gain {:e}: {e}", options.gain))
+        }
+        other => Failure::usage(format!("bad setting: {other}")),
+    }
+}
+
+/// Float samples as a converter of `bits` bits would code them, reading 1.0 as full scale
+/// (round to nearest, clip to the code range). Non-finite samples have no code: an error.
+#[cfg(feature = "fixed")]
+fn quantise(samples: &[f32], bits: u32, input: &Path) -> Result<(Vec<i32>, usize), Failure> {
+    let full = (1i64 << (bits - 1)) as f64;
+    let bad = samples.iter().filter(|x| !x.is_finite()).count();
+    if bad > 0 {
+        return Err(Failure::runtime(format!(
+            "{}: {bad} samples are NaN or infinite and have no {bits}-bit code; --arith f32 \
+             rejects the blocks that hold them instead",
+            input.display()
+        )));
+    }
+    let mut clipped = 0;
+    let codes = samples
+        .iter()
+        .map(|&x| {
+            let code = (x as f64 * full).round();
+            if code > full - 1.0 || code < -full {
+                clipped += 1;
+            }
+            code.clamp(-full, full - 1.0) as i32
+        })
+        .collect();
+    Ok((codes, clipped))
+}
+
+/// Float samples quantised for a fixed-point path: the converter's bits and how many samples
+/// were beyond full scale and clipped.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Quantised {
+    /// 16 for `--arith q15`, 24 for `--arith q31`.
+    pub bits: u32,
+    /// Samples beyond full scale, clipped to the end codes.
+    pub clipped: usize,
+}
+
+/// The Q15 or Q31 analyzer on the samples, as firmware would run it.
+#[cfg(feature = "fixed")]
+fn run_fixed<const N: usize, const BINS: usize>(
+    options: &Options,
+    samples: &Samples,
+    sample_rate_hz: f64,
+    blocks: u32,
+) -> Result<(leakless::Status, Spectrum<BINS>, Option<Quantised>), Failure> {
+    use leakless::{AnalyzerQ15, AnalyzerQ31, Symmetry, WindowQ15, WindowQ31};
+    let window_error = |e| Failure::usage(format!("--window {}: {e}", options.window_name));
+    if options.arith == Arith::Q15 {
+        let window = WindowQ15::<N>::try_with_symmetry(options.shape, Symmetry::Periodic)
+            .map_err(window_error)?;
+        // 16-bit PCM goes straight in; float input becomes 16-bit counts first.
+        let (counts, quantised): (Vec<i16>, _) = match samples {
+            Samples::Counts(c) => (c.clone(), None),
+            Samples::Float(f) => {
+                let (codes, clipped) = quantise(f, 16, &options.input)?;
+                let counts = codes.into_iter().map(|c| c as i16).collect();
+                (counts, Some(Quantised { bits: 16, clipped }))
+            }
+        };
+        // Either way the analyzer sees 16-bit counts, so it gets the counts' settings.
+        let config = config(
+            options,
+            &Samples::Counts(Vec::new()),
+            sample_rate_hz,
+            blocks,
+        );
+        let mut analyzer: AnalyzerQ15<N, BINS> =
+            AnalyzerQ15::new(&window, config).map_err(|e| bad_setting(options, e))?;
+        analyzer.push(&counts);
+        let spectrum = analyzer.spectrum(options.scale, options.correction);
+        return Ok((analyzer.status(), spectrum, quantised));
+    }
+    let window = WindowQ31::<N>::try_with_symmetry(options.shape, Symmetry::Periodic)
+        .map_err(window_error)?;
+    let (config, codes, quantised) = match samples {
+        // 16-bit counts through the Q31 path (what `push_counts` does).
+        Samples::Counts(c) => (
+            config(options, samples, sample_rate_hz, blocks),
+            c.iter().map(|&x| x as i32).collect::<Vec<i32>>(),
+            None,
+        ),
+        Samples::Float(f) => {
+            // A 24-bit converter's codes: 2^23 counts to full scale.
+            let (codes, clipped) = quantise(f, 24, &options.input)?;
+            let full_scale = (1u32 << 23) as f32;
+            let config = config(options, samples, sample_rate_hz, blocks)
+                .with_sensitivity(options.gain / full_scale)
+                .with_full_scale(full_scale - 1.0)
+                .with_overload_policy(OverloadPolicy::Average);
+            (config, codes, Some(Quantised { bits: 24, clipped }))
+        }
+    };
+    let mut analyzer: AnalyzerQ31<N, BINS> =
+        AnalyzerQ31::new(&window, config).map_err(|e| bad_setting(options, e))?;
+    analyzer.push(&codes);
+    let spectrum = analyzer.spectrum(options.scale, options.correction);
+    Ok((analyzer.status(), spectrum, quantised))
+}
+
+/// Without the `fixed` feature `--arith` is refused while parsing; this keeps `run` whole.
+#[cfg(not(feature = "fixed"))]
+fn run_fixed<const N: usize, const BINS: usize>(
+    _options: &Options,
+    _samples: &Samples,
+    _sample_rate_hz: f64,
+    _blocks: u32,
+) -> Result<(leakless::Status, Spectrum<BINS>, Option<Quantised>), Failure> {
+    Err(Failure::usage(
+        "--arith q15/q31 need the crate's `fixed` feature (cargo run --example analyze --features fixed)",
+    ))
 }
 
 /// The name of a scale on the command line.
@@ -500,13 +682,14 @@ fn to_csv<const BINS: usize>(
     spectrum: &Spectrum<BINS>,
     options: &Options,
     overlap: usize,
+    quantised_bits: Option<u32>,
 ) -> String {
     let mut csv = String::with_capacity(BINS * 24 + 256);
     // f32 values print in the shortest form that reads back to the same f32.
     let _ = writeln!(
         csv,
         "# scale={} correction={} unit={} window={} n={} averages={} sample_rate_hz={} \
-         overlap={} detrend={} gain={} input={}",
+         overlap={} detrend={} gain={} arith={}{} input={}",
         scale_name(spectrum.scale()),
         correction_name(spectrum.correction()),
         value_unit(spectrum),
@@ -520,6 +703,10 @@ fn to_csv<const BINS: usize>(
             Detrend::None => "none",
         },
         options.gain,
+        options.arith.name(),
+        quantised_bits
+            .map(|b| format!(" quantised={b}-bit"))
+            .unwrap_or_default(),
         options.input.display()
     );
     csv.push_str("frequency_hz,value\n");
