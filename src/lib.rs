@@ -68,7 +68,7 @@ pub mod window;
 pub use analysis::bearing::{BearingGeometry, DefectFrequencies, DefectOrders};
 pub use analysis::peaks::{strongest_tones, Tone, ToneSearch};
 pub use error::ConfigError;
-pub use window::{Factors, Shape, Symmetry, Window, WindowQ15, WindowQ31};
+pub use window::{Factors, Shape, Symmetry, Window, WindowQ15, WindowQ31, WindowTable};
 
 #[cfg(feature = "f32")]
 pub use spectrum::analyzer::Analyzer;

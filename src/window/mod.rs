@@ -137,13 +137,19 @@ const fn f64_table<const N: usize>(shape: Shape, symmetry: Symmetry) -> [f64; N]
     t
 }
 
-/// A window of `N` samples: its `f32` table and its [`Factors`], built by `const fn`.
+/// A window of `N` samples in the number type `T`: its table and its [`Factors`], built by
+/// `const fn`. Use it through its three forms:
 ///
-/// Put it in a `const` or `static` and the compiler evaluates it: no start-up cost, and the
+/// * [`Window<N>`]: `f32`, for the float path;
+/// * [`WindowQ15<N>`]: `i16`, `round(32767 w)`, for the Q15 path;
+/// * [`WindowQ31<N>`]: `i32`, `round((2^31 - 1) w)`, for the Q31 path (24-bit converters).
+///
+/// Put one in a `const` or `static` and the compiler evaluates it: no start-up cost, and the
 /// table lands in flash. Analyzers borrow it (`&'static Window<N>`) rather than copy it.
 ///
 /// # Generics
 ///
+/// * `T`: the number type of the table (`f32`, `i16` or `i32`).
 /// * `N`: block length, 2 ..= 65536, checked at compile time.
 ///
 /// ```compile_fail
@@ -151,65 +157,119 @@ const fn f64_table<const N: usize>(shape: Shape, symmetry: Symmetry) -> [f64; N]
 /// const EMPTY: Window<0> = Window::new(Shape::Hann); // error: a window needs at least 2 samples
 /// ```
 #[derive(Clone, Debug, PartialEq)]
-pub struct Window<const N: usize> {
+pub struct WindowTable<T, const N: usize> {
     shape: Shape,
     symmetry: Symmetry,
-    table: [f32; N],
+    table: [T; N],
     factors: Factors,
 }
 
-impl<const N: usize> Window<N> {
-    /// The periodic (DFT-even) window of `shape`: the one to use for spectra.
-    ///
-    /// # Panics
-    ///
-    /// If the shape's parameters are out of range ([`Shape::validate`]). In a `const` that is
-    /// a compile error; at run time use [`Window::try_new`].
-    pub const fn new(shape: Shape) -> Self {
-        Self::with_symmetry(shape, Symmetry::Periodic)
-    }
+/// The `f32` window table of the float path.
+///
+/// Its [`Factors`] come from the f64 definition: rounding to f32 moves them by about 1e-9, far
+/// below what the f32 path itself resolves, and this way the exact figures (Hann: 2.0, 1.5
+/// bins) stay exact.
+pub type Window<const N: usize> = WindowTable<f32, N>;
 
-    /// The window of `shape` in the given definition.
-    ///
-    /// # Panics
-    ///
-    /// As [`Window::new`].
-    pub const fn with_symmetry(shape: Shape, symmetry: Symmetry) -> Self {
-        match Self::try_with_symmetry(shape, symmetry) {
-            Ok(w) => w,
-            Err(_) => panic!("window parameter out of range"),
+/// The Q15 twin of [`Window`]: an `i16` table for the fixed-point path.
+///
+/// Entry `n` is `round(32767 w[n])` from the f64 definition (within 0.5 LSB, and a peak of 1
+/// becomes 32767, never overflowing). The fixed-point multiply reads it as `q / 32768`, and
+/// its [`Factors`] are computed from exactly those values, so the corrections of the fixed
+/// path include the small gain `32767/32768`.
+pub type WindowQ15<const N: usize> = WindowTable<i16, N>;
+
+/// The Q31 twin of [`Window`], for the Q31 path (24-bit converters): an `i32` table.
+///
+/// Entry `n` is `round(2147483647 w[n])` (the Q15 rule, `round((2^B - 1) w)`, at 31 bits) and
+/// the fixed-point multiply reads it as `q / 2^31`; its [`Factors`] are computed from exactly
+/// those values. Why a table of its own: a Q15 table's rounding (0.5 LSB of 2^-15 on every
+/// sample) modulates the signal by an error about 97 dB below it, which would be the floor of
+/// a Q31 spectrum whose transform alone reaches 135 dB and more. It costs `4 N` bytes of
+/// flash instead of `2 N`.
+///
+/// ```
+/// use leakless::window::{Shape, WindowQ31};
+/// const HANN: WindowQ31<1024> = WindowQ31::new(Shape::Hann);
+/// assert_eq!(HANN.table()[512], i32::MAX);
+/// assert!((HANN.factors().amplitude_correction - 2.0).abs() < 1e-8);
+/// ```
+pub type WindowQ31<const N: usize> = WindowTable<i32, N>;
+
+/// The constructors of one table type: `$quantise` turns a sample of the f64 definition into
+/// the stored value, `$as_applied` says what a stored value means to the transform (the factors
+/// are computed from that).
+macro_rules! window_constructors {
+    ($t:ty, $zero:expr, |$x:ident| $quantise:expr, |$x2:ident, $q:ident| $as_applied:expr) => {
+        impl<const N: usize> WindowTable<$t, N> {
+            /// The periodic (DFT-even) window of `shape`: the one to use for spectra.
+            ///
+            /// # Panics
+            ///
+            /// If the shape's parameters are out of range ([`Shape::validate`]). In a `const`
+            /// that is a compile error; at run time use `try_new`.
+            pub const fn new(shape: Shape) -> Self {
+                Self::with_symmetry(shape, Symmetry::Periodic)
+            }
+
+            /// The window of `shape` in the given definition.
+            ///
+            /// # Panics
+            ///
+            /// As `new`.
+            pub const fn with_symmetry(shape: Shape, symmetry: Symmetry) -> Self {
+                match Self::try_with_symmetry(shape, symmetry) {
+                    Ok(w) => w,
+                    Err(_) => panic!("window parameter out of range"),
+                }
+            }
+
+            /// `new` that returns an error instead of panicking.
+            pub const fn try_new(shape: Shape) -> Result<Self, ConfigError> {
+                Self::try_with_symmetry(shape, Symmetry::Periodic)
+            }
+
+            /// `with_symmetry` that returns an error instead of panicking.
+            pub const fn try_with_symmetry(
+                shape: Shape,
+                symmetry: Symmetry,
+            ) -> Result<Self, ConfigError> {
+                assert_block_len::<N>();
+                if let Err(e) = shape.validate() {
+                    return Err(e);
+                }
+                let exact = f64_table::<N>(shape, symmetry);
+                let mut table = [$zero; N];
+                let mut applied = [0.0f64; N];
+                let mut i = 0;
+                while i < N {
+                    let $x = exact[i];
+                    let $q = $quantise;
+                    table[i] = $q;
+                    let $x2 = $x;
+                    applied[i] = $as_applied;
+                    i += 1;
+                }
+                Ok(WindowTable {
+                    shape,
+                    symmetry,
+                    table,
+                    factors: Factors::of_samples(&applied),
+                })
+            }
         }
-    }
+    };
+}
 
-    /// [`Window::new`] that returns an error instead of panicking.
-    pub const fn try_new(shape: Shape) -> Result<Self, ConfigError> {
-        Self::try_with_symmetry(shape, Symmetry::Periodic)
-    }
+// f32: the factors use the exact f64 values (see `Window`).
+window_constructors!(f32, 0.0f32, |x| x as f32, |x, _q| x);
+window_constructors!(i16, 0i16, |x| round_to_i16(x * 32767.0), |_x, q| q as f64
+    / 32768.0);
+window_constructors!(i32, 0i32, |x| round_to_i32(x * 2_147_483_647.0), |_x, q| q
+    as f64
+    / 2_147_483_648.0);
 
-    /// [`Window::with_symmetry`] that returns an error instead of panicking.
-    pub const fn try_with_symmetry(shape: Shape, symmetry: Symmetry) -> Result<Self, ConfigError> {
-        assert_block_len::<N>();
-        if let Err(e) = shape.validate() {
-            return Err(e);
-        }
-        let exact = f64_table::<N>(shape, symmetry);
-        // Round once to f32. The factors come from the f64 values: f32 rounding moves them by
-        // about 1e-9, far below what the f32 path itself resolves, and this way the exact
-        // figures (Hann: 2.0, 1.5 bins) stay exact.
-        let mut table = [0.0f32; N];
-        let mut i = 0;
-        while i < N {
-            table[i] = exact[i] as f32;
-            i += 1;
-        }
-        Ok(Window {
-            shape,
-            symmetry,
-            table,
-            factors: Factors::of_samples(&exact),
-        })
-    }
-
+impl<T, const N: usize> WindowTable<T, N> {
     /// The shape this window was built from.
     pub const fn shape(&self) -> Shape {
         self.shape
@@ -221,11 +281,11 @@ impl<const N: usize> Window<N> {
     }
 
     /// The `N` samples.
-    pub const fn table(&self) -> &[f32; N] {
+    pub const fn table(&self) -> &[T; N] {
         &self.table
     }
 
-    /// The correction factors and figures of merit.
+    /// The correction factors and figures of merit of the table as the transform applies it.
     pub const fn factors(&self) -> &Factors {
         &self.factors
     }
@@ -263,177 +323,6 @@ impl<const N: usize> Window<N> {
     pub fn added_damping_ratio(&self, sample_rate_hz: f64, mode_frequency_hz: f64) -> Option<f64> {
         self.added_decay_rate(sample_rate_hz)
             .map(|sigma| sigma / (2.0 * core::f64::consts::PI * mode_frequency_hz))
-    }
-}
-
-/// The Q15 twin of [`Window`]: an `i16` table for the fixed-point path.
-///
-/// Entry `n` is `round(32767 w[n])` from the f64 definition (within 0.5 LSB, and a peak of 1
-/// becomes 32767, never overflowing). The fixed-point multiply reads it as `q / 32768`, and
-/// [`WindowQ15::factors`] are computed from exactly those values, so the corrections of the
-/// fixed path include the small gain `32767/32768`.
-#[derive(Clone, Debug, PartialEq)]
-pub struct WindowQ15<const N: usize> {
-    shape: Shape,
-    symmetry: Symmetry,
-    table: [i16; N],
-    factors: Factors,
-}
-
-impl<const N: usize> WindowQ15<N> {
-    /// The periodic Q15 window of `shape`.
-    ///
-    /// # Panics
-    ///
-    /// As [`Window::new`].
-    pub const fn new(shape: Shape) -> Self {
-        Self::with_symmetry(shape, Symmetry::Periodic)
-    }
-
-    /// The Q15 window of `shape` in the given definition.
-    ///
-    /// # Panics
-    ///
-    /// As [`Window::new`].
-    pub const fn with_symmetry(shape: Shape, symmetry: Symmetry) -> Self {
-        match Self::try_with_symmetry(shape, symmetry) {
-            Ok(w) => w,
-            Err(_) => panic!("window parameter out of range"),
-        }
-    }
-
-    /// [`WindowQ15::with_symmetry`] that returns an error instead of panicking.
-    pub const fn try_with_symmetry(shape: Shape, symmetry: Symmetry) -> Result<Self, ConfigError> {
-        assert_block_len::<N>();
-        if let Err(e) = shape.validate() {
-            return Err(e);
-        }
-        let exact = f64_table::<N>(shape, symmetry);
-        let mut table = [0i16; N];
-        let mut stored = [0.0f64; N];
-        let mut i = 0;
-        while i < N {
-            let q = round_to_i16(exact[i] * 32767.0);
-            table[i] = q;
-            stored[i] = q as f64 / 32768.0;
-            i += 1;
-        }
-        Ok(WindowQ15 {
-            shape,
-            symmetry,
-            table,
-            factors: Factors::of_samples(&stored),
-        })
-    }
-
-    /// The shape this window was built from.
-    pub const fn shape(&self) -> Shape {
-        self.shape
-    }
-
-    /// Periodic or symmetric.
-    pub const fn symmetry(&self) -> Symmetry {
-        self.symmetry
-    }
-
-    /// The `N` samples in Q15.
-    pub const fn table(&self) -> &[i16; N] {
-        &self.table
-    }
-
-    /// Factors of the table as the fixed path applies it (`q / 32768`).
-    pub const fn factors(&self) -> &Factors {
-        &self.factors
-    }
-}
-
-/// The Q31 twin of [`Window`], for the Q31 path (24-bit converters): an `i32` table.
-///
-/// Entry `n` is `round(2147483647 w[n])` (the Q15 rule, `round((2^B - 1) w)`, at 31 bits) and
-/// the fixed-point multiply reads it as `q / 2^31`; [`WindowQ31::factors`] are computed from
-/// exactly those values. Why a table of its own: a Q15 table's rounding (0.5 LSB of 2^-15 on
-/// every sample) modulates the signal by an error about 97 dB below it, which would be the
-/// floor of a Q31 spectrum whose transform alone reaches 135 dB and more. It costs `4 N` bytes
-/// of flash instead of `2 N`.
-#[derive(Clone, Debug, PartialEq)]
-pub struct WindowQ31<const N: usize> {
-    shape: Shape,
-    symmetry: Symmetry,
-    table: [i32; N],
-    factors: Factors,
-}
-
-impl<const N: usize> WindowQ31<N> {
-    /// The periodic Q31 window of `shape`.
-    ///
-    /// # Panics
-    ///
-    /// As [`Window::new`].
-    ///
-    /// ```
-    /// use leakless::window::{Shape, WindowQ31};
-    /// const HANN: WindowQ31<1024> = WindowQ31::new(Shape::Hann);
-    /// assert_eq!(HANN.table()[512], i32::MAX);
-    /// assert!((HANN.factors().amplitude_correction - 2.0).abs() < 1e-8);
-    /// ```
-    pub const fn new(shape: Shape) -> Self {
-        Self::with_symmetry(shape, Symmetry::Periodic)
-    }
-
-    /// The Q31 window of `shape` in the given definition.
-    ///
-    /// # Panics
-    ///
-    /// As [`Window::new`].
-    pub const fn with_symmetry(shape: Shape, symmetry: Symmetry) -> Self {
-        match Self::try_with_symmetry(shape, symmetry) {
-            Ok(w) => w,
-            Err(_) => panic!("window parameter out of range"),
-        }
-    }
-
-    /// [`WindowQ31::with_symmetry`] that returns an error instead of panicking.
-    pub const fn try_with_symmetry(shape: Shape, symmetry: Symmetry) -> Result<Self, ConfigError> {
-        assert_block_len::<N>();
-        if let Err(e) = shape.validate() {
-            return Err(e);
-        }
-        let exact = f64_table::<N>(shape, symmetry);
-        let mut table = [0i32; N];
-        let mut stored = [0.0f64; N];
-        let mut i = 0;
-        while i < N {
-            let q = round_to_i32(exact[i] * 2_147_483_647.0);
-            table[i] = q;
-            stored[i] = q as f64 / 2_147_483_648.0;
-            i += 1;
-        }
-        Ok(WindowQ31 {
-            shape,
-            symmetry,
-            table,
-            factors: Factors::of_samples(&stored),
-        })
-    }
-
-    /// The shape this window was built from.
-    pub const fn shape(&self) -> Shape {
-        self.shape
-    }
-
-    /// Periodic or symmetric.
-    pub const fn symmetry(&self) -> Symmetry {
-        self.symmetry
-    }
-
-    /// The `N` samples in Q31.
-    pub const fn table(&self) -> &[i32; N] {
-        &self.table
-    }
-
-    /// Factors of the table as the fixed path applies it (`q / 2^31`).
-    pub const fn factors(&self) -> &Factors {
-        &self.factors
     }
 }
 
