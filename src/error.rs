@@ -31,6 +31,8 @@ pub enum ConfigError {
     WindowParameter,
     /// A frequency (band edge, integration cut-off, tone search range) is not usable.
     Frequency,
+    /// A tone search's floor must be finite and `>= 0` (RMS), and its range in dB `>= 0`.
+    ToneFloor,
     /// A rolling-element bearing needs at least one ball (or roller).
     BallCount,
     /// The ball diameter must be finite, greater than zero and less than the pitch diameter.
@@ -66,6 +68,7 @@ impl fmt::Display for ConfigError {
             Self::FullScale => f.write_str("full scale must be finite and > 0"),
             Self::WindowParameter => f.write_str("window parameter out of range"),
             Self::Frequency => f.write_str("frequency out of range"),
+            Self::ToneFloor => f.write_str("tone floor and range must be >= 0"),
             Self::BallCount => f.write_str("a bearing needs at least one ball"),
             Self::BallDiameter => {
                 f.write_str("ball diameter must be finite, > 0 and less than the pitch diameter")

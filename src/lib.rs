@@ -50,6 +50,7 @@ pub mod spectrum;
 pub mod window;
 
 pub use analysis::bearing::{BearingGeometry, DefectFrequencies, DefectOrders};
+pub use analysis::peaks::{strongest_tones, Tone, ToneSearch};
 pub use error::ConfigError;
 pub use window::{Factors, Shape, Symmetry, Window, WindowQ15};
 

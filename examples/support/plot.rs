@@ -41,8 +41,14 @@ impl SpectrumPlot<'_> {
                 }
             })
             .collect();
-        let f_max = self.frequencies_hz.iter().cloned().fold(0.0, f64::max).max(1.0);
-        let top_db = (db.iter().cloned().fold(f64::MIN, f64::max) / 10.0).ceil() * 10.0;
+        let f_max = self
+            .frequencies_hz
+            .iter()
+            .cloned()
+            .fold(0.0, f64::max)
+            .max(1.0);
+        // `+ 0.0` turns a top of -0 into 0, so the tick reads "0", not "-0".
+        let top_db = (db.iter().cloned().fold(f64::MIN, f64::max) / 10.0).ceil() * 10.0 + 0.0;
         // Show 100 dB below the top, or the whole trace if it spans less.
         let floor = db.iter().cloned().fold(f64::MAX, f64::min);
         let bottom_db = ((floor / 10.0).floor() * 10.0).max(top_db - 100.0);
@@ -106,7 +112,8 @@ impl SpectrumPlot<'_> {
             TOP + plot_h / 2.0,
             escape(self.y_label)
         );
-        // Markers under the trace.
+        // Markers under the trace, labels reading up from the bottom of the plot to just
+        // under its top edge (anchored at their end, so they never run into the title).
         for (label, f) in self.markers {
             if *f > f_max {
                 continue;
@@ -114,7 +121,7 @@ impl SpectrumPlot<'_> {
             let x = x_of(*f);
             let _ = writeln!(
                 s,
-                r##"<line x1="{x:.1}" y1="{TOP}" x2="{x:.1}" y2="{:.1}" stroke="#c33" stroke-dasharray="3,3"/><text x="{:.1}" y="{:.1}" fill="#c33" transform="rotate(-90 {:.1} {:.1})">{}</text>"##,
+                r##"<line x1="{x:.1}" y1="{TOP}" x2="{x:.1}" y2="{:.1}" stroke="#c33" stroke-dasharray="3,3"/><text x="{:.1}" y="{:.1}" fill="#c33" text-anchor="end" transform="rotate(-90 {:.1} {:.1})">{}</text>"##,
                 TOP + plot_h,
                 x + 4.0,
                 TOP + 6.0,
@@ -163,5 +170,7 @@ fn trim(f: f64) -> String {
 }
 
 fn escape(text: &str) -> String {
-    text.replace('&', "&amp;").replace('<', "&lt;").replace('>', "&gt;")
+    text.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
 }

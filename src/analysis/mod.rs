@@ -2,3 +2,4 @@
 
 pub mod bands;
 pub mod bearing;
+pub mod peaks;

@@ -339,6 +339,54 @@ impl<const BINS: usize> Spectrum<BINS> {
         )
     }
 
+    /// Line `bin` as an energy-corrected mean square (units^2), whatever this spectrum's own
+    /// scale: [`Scale::Power`] with [`Correction::Energy`], through [`rescale`]. Summed over
+    /// lines it is the power in that band, independent of the window and of where a tone
+    /// falls between lines while its main lobe stays inside (REFERENCES.md §2.1). `None`
+    /// beyond Nyquist.
+    ///
+    /// ```
+    /// use leakless::{Correction, Scale, Shape, Spectrum, SpectrumInfo, Window};
+    ///
+    /// const HANN: Window<64> = Window::new(Shape::Hann);
+    /// let info = SpectrumInfo {
+    ///     sample_rate_hz: 64.0,
+    ///     block_len: 64,
+    ///     factors: *HANN.factors(),
+    ///     unit: "g",
+    ///     averages: 1,
+    /// };
+    /// let mut values = [0.0f32; 33];
+    /// values[4] = 1.0; // a 1 g peak tone on line 4, amplitude-corrected
+    /// let peak = Spectrum::new(values, Scale::Peak, Correction::Amplitude, info).unwrap();
+    /// // Energy correction reads the peak line low by the ENBW (1.5 lines for Hann).
+    /// assert!((peak.mean_square(4).unwrap() - 0.5 / 1.5).abs() < 1e-6);
+    /// assert_eq!(peak.mean_square(33), None);
+    /// ```
+    pub fn mean_square(&self, bin: usize) -> Option<f32> {
+        let value = *self.values.get(bin)?;
+        let to = LineGains::of(
+            Scale::Power,
+            Correction::Energy,
+            &self.info.factors,
+            self.info.sample_rate_hz,
+            self.info.block_len,
+        );
+        // A one-line slice is all "edge" to `rescale`, so hand it the gains of this line's kind.
+        let (from, to) = if bin == 0 || bin + 1 == BINS {
+            (self.gains(), to)
+        } else {
+            let interior = |g: LineGains| LineGains {
+                edge: g.interior,
+                ..g
+            };
+            (interior(self.gains()), interior(to))
+        };
+        let mut line = [value];
+        rescale(&mut line, from, to);
+        Some(line[0])
+    }
+
     /// The same spectrum on another scale and correction (through [`rescale`]).
     pub fn to_scale(&self, scale: Scale, correction: Correction) -> Self {
         let mut out = self.clone();
