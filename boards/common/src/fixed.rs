@@ -127,6 +127,7 @@ impl<const BINS: usize> Accumulator<BINS> {
 }
 
 /// Converts a finished average into a spectrum on `scale`.
+#[inline(never)]
 fn read_out<const N: usize, const BINS: usize>(
     acc: &Accumulator<BINS>,
     factors: &Factors,

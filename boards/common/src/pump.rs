@@ -160,6 +160,7 @@ fn feed<const BINS: usize, P: Path<BINS>>(
 
 /// Runs `path` over the scenario, logs its stage counts, and leaves its average in `out`.
 /// Block `traced` of the probed pass is also counted exactly by the plugin.
+#[inline(never)]
 pub fn measure<const N: usize, const BINS: usize, P: Path<BINS>>(
     label: &'static str,
     path: &mut P,

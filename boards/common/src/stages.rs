@@ -26,44 +26,69 @@ fn scenario_block<const N: usize>(out: &mut [i16; N]) {
     pump.fill_counts(out);
 }
 
-/// Times the bare transforms of `N` points: f32 (`with_float`), Q15, Q31 (`with_q31`).
+/// Times the bare transforms of `N` points: f32 (`with_float`), Q15, Q31 (`with_q31`), on
+/// the scenario's first block under the Q15 Hann window. Each in its own stack frame, so a
+/// 16 KiB core only ever holds one block at a time.
 pub fn bare<const N: usize>(
     labels: [&'static str; 3],
     hann: &WindowQ15<N>,
     with_float: bool,
     with_q31: bool,
 ) {
-    let mut counts = [0i16; N];
-    scenario_block(&mut counts);
     if with_float {
-        let mut block = [0.0f32; N];
-        for ((x, &c), &w) in block.iter_mut().zip(counts.iter()).zip(hann.table()) {
-            *x = f32::from(c) * f32::from(w) / 32768.0;
-        }
-        count::stage(labels[0], || {
-            black_box(rfft(black_box(&mut block)).bins());
-        });
+        bare_f32(labels[0], hann);
     }
+    bare_q15(labels[1], hann);
+    if with_q31 {
+        bare_q31(labels[2], hann);
+    }
+}
+
+/// The scenario's first block, windowed, scaled up 6 bits (it peaks near 600 counts).
+fn windowed_q15<const N: usize>(hann: &WindowQ15<N>, out: &mut [i16; N]) {
+    scenario_block(out);
+    for (q, &w) in out.iter_mut().zip(hann.table()) {
+        *q = ((i32::from(*q) * i32::from(w)) >> 9) as i16;
+    }
+}
+
+#[inline(never)]
+fn bare_f32<const N: usize>(label: &'static str, hann: &WindowQ15<N>) {
     let mut q15 = [0i16; N];
-    for ((q, &c), &w) in q15.iter_mut().zip(counts.iter()).zip(hann.table()) {
-        // Windowed and scaled up 6 bits (the scenario peaks near 600 counts).
-        *q = ((i32::from(c) * i32::from(w)) >> 9) as i16;
+    windowed_q15(hann, &mut q15);
+    let mut block = [0.0f32; N];
+    for (x, &q) in block.iter_mut().zip(q15.iter()) {
+        *x = f32::from(q);
     }
+    count::stage(label, || {
+        black_box(rfft(black_box(&mut block)).bins());
+    });
+}
+
+#[inline(never)]
+fn bare_q15<const N: usize>(label: &'static str, hann: &WindowQ15<N>) {
+    let mut q15 = [0i16; N];
+    windowed_q15(hann, &mut q15);
+    count::stage(label, || {
+        black_box(rfft_q15(black_box(&mut q15)));
+    });
+}
+
+#[inline(never)]
+fn bare_q31<const N: usize>(label: &'static str, hann: &WindowQ15<N>) {
+    let mut q15 = [0i16; N];
+    windowed_q15(hann, &mut q15);
     let mut q31 = [0i32; N];
     for (d, &s) in q31.iter_mut().zip(q15.iter()) {
         *d = i32::from(s) << 16;
     }
-    count::stage(labels[1], || {
-        black_box(rfft_q15(black_box(&mut q15)));
+    count::stage(label, || {
+        black_box(rfft_q31(black_box(&mut q31)));
     });
-    if with_q31 {
-        count::stage(labels[2], || {
-            black_box(rfft_q31(black_box(&mut q31)));
-        });
-    }
 }
 
 /// The budget run of the f32 analyzer at `N`; with `checks`, the resolved-1x check.
+#[inline(never)]
 pub fn budget_f32<const N: usize, const BINS: usize>(
     label: &'static str,
     window: &Window<N>,
@@ -82,16 +107,18 @@ pub fn budget_f32<const N: usize, const BINS: usize>(
 }
 
 /// The budget run of the Q15 pipeline at `N`; with `checks`, the resolved-1x check.
+#[inline(never)]
 pub fn budget_q15<const N: usize, const BINS: usize>(
     label: &'static str,
     window: &WindowQ15<N>,
     checks: Option<&mut Checks>,
 ) {
     let pump = PumpScenario::new();
-    if let Ok(mut q) = PipelineQ15::<N, BINS>::new(window, fixed_config(&pump, N)) {
+    let mut made = PipelineQ15::<N, BINS>::new(window, fixed_config(&pump, N));
+    if let Ok(q) = &mut made {
         log_ram::<PipelineQ15<N, BINS>>(label, 4 * N + 8 * BINS);
         let mut out = empty_spectrum::<BINS>(N, window.factors());
-        pump::measure::<N, BINS, _>(label, &mut q, &mut out);
+        pump::measure::<N, BINS, _>(label, q, &mut out);
         pump::tones(label, &out);
         if let Some(checks) = checks {
             check_resolved_1x(checks, label, &out, &Expected::of(&pump));
@@ -100,6 +127,7 @@ pub fn budget_q15<const N: usize, const BINS: usize>(
 }
 
 /// The budget run of the Q31 pipeline at `N`; with `checks`, the resolved-1x check.
+#[inline(never)]
 pub fn budget_q31<const N: usize, const BINS: usize>(
     label: &'static str,
     window: &HannQ31<N>,
