@@ -41,6 +41,7 @@
 )]
 
 pub mod analysis;
+pub mod compare;
 #[cfg(feature = "demo")]
 pub mod demo;
 pub mod error;
@@ -52,10 +53,13 @@ pub mod window;
 pub use analysis::bearing::{BearingGeometry, DefectFrequencies, DefectOrders};
 pub use analysis::peaks::{strongest_tones, Tone, ToneSearch};
 pub use error::ConfigError;
-pub use window::{Factors, Shape, Symmetry, Window, WindowQ15};
+pub use window::{Factors, Shape, Symmetry, Window, WindowQ15, WindowQ31};
 
 #[cfg(feature = "f32")]
-pub use spectrum::analyzer::{Analyzer, Config, Overlap, PushReport, Stage, Status};
+pub use spectrum::analyzer::Analyzer;
 pub use spectrum::average::{Averaging, WhenDone};
 pub use spectrum::condition::{Detrend, OverloadPolicy};
+pub use spectrum::config::{Config, Overlap, PushReport, Stage, Status};
+#[cfg(feature = "fixed")]
+pub use spectrum::fixed::{AnalyzerQ15, AnalyzerQ31, FixedAnalyzer};
 pub use spectrum::scale::{Correction, Scale, Spectrum, SpectrumInfo};

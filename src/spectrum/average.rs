@@ -43,6 +43,37 @@ pub enum Averaging {
     PeakHold,
 }
 
+impl Averaging {
+    /// Checks the mode: a linear count of at least 1, an exponential time constant finite and
+    /// at least 1 (both [`ConfigError::AverageCount`]). Every averager (float or fixed point)
+    /// checks through this.
+    pub fn validate(&self) -> Result<(), ConfigError> {
+        let valid = match *self {
+            Averaging::Linear { count, .. } => count >= 1,
+            Averaging::Exponential {
+                time_constant_blocks,
+            } => time_constant_blocks.is_finite() && time_constant_blocks >= 1.0,
+            Averaging::PeakHold => true,
+        };
+        if valid {
+            Ok(())
+        } else {
+            Err(ConfigError::AverageCount)
+        }
+    }
+
+    /// Whether a finished average keeps its blocks and ignores later ones (linear + hold).
+    pub fn holds_when_done(&self) -> bool {
+        matches!(
+            self,
+            Averaging::Linear {
+                when_done: WhenDone::Hold,
+                ..
+            }
+        )
+    }
+}
+
 /// The accumulator of `BINS` lines and the averaging state.
 #[derive(Clone, Debug)]
 pub struct Averager<const BINS: usize> {
@@ -58,21 +89,12 @@ impl<const BINS: usize> Averager<BINS> {
     /// Checks the mode: a linear count of at least 1, an exponential time constant finite and
     /// at least 1 (both [`ConfigError::AverageCount`]).
     pub fn new(mode: Averaging) -> Result<Self, ConfigError> {
+        mode.validate()?;
         let reciprocal = match mode {
-            Averaging::Linear { count, .. } => {
-                if count == 0 {
-                    return Err(ConfigError::AverageCount);
-                }
-                1.0 / count as f32
-            }
+            Averaging::Linear { count, .. } => 1.0 / count as f32,
             Averaging::Exponential {
                 time_constant_blocks,
-            } => {
-                if !(time_constant_blocks.is_finite() && time_constant_blocks >= 1.0) {
-                    return Err(ConfigError::AverageCount);
-                }
-                1.0 / time_constant_blocks
-            }
+            } => 1.0 / time_constant_blocks,
             Averaging::PeakHold => 1.0,
         };
         Ok(Self {
@@ -92,14 +114,7 @@ impl<const BINS: usize> Averager<BINS> {
     /// Whether a new block would change the average (false once a held linear average is
     /// done, so the caller can skip its transform).
     pub fn wants_block(&self) -> bool {
-        !(self.done
-            && matches!(
-                self.mode,
-                Averaging::Linear {
-                    when_done: WhenDone::Hold,
-                    ..
-                }
-            ))
+        !(self.done && self.mode.holds_when_done())
     }
 
     /// Adds one block's squared magnitudes: DC, the `BINS - 2` interior lines in order, then

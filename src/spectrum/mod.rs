@@ -7,8 +7,11 @@
 
 pub mod average;
 pub mod condition;
+pub mod config;
 pub mod frame;
 pub mod scale;
 
 #[cfg(feature = "f32")]
 pub mod analyzer;
+#[cfg(feature = "fixed")]
+pub mod fixed;

@@ -261,11 +261,26 @@ impl<const BINS: usize> Spectrum<BINS> {
         correction: Correction,
         info: SpectrumInfo,
     ) {
+        self.set_from_square_lines(squares.iter().copied(), gain, scale, correction, info);
+    }
+
+    /// [`Spectrum::set_from_squares`] from the lines one by one (DC first), so an
+    /// accumulator in another representation is read without a `BINS`-line temporary.
+    pub(crate) fn set_from_square_lines(
+        &mut self,
+        squares: impl Iterator<Item = f32>,
+        gain: f64,
+        scale: Scale,
+        correction: Correction,
+        info: SpectrumInfo,
+    ) {
         self.scale = scale;
         self.correction = correction.effective(scale);
         self.info = info;
         if gain > 0.0 && gain.is_finite() {
-            self.values = *squares;
+            for (value, square) in self.values.iter_mut().zip(squares) {
+                *value = square;
+            }
             let to = self.gains();
             rescale(&mut self.values, LineGains::squared_magnitudes(gain), to);
         } else {

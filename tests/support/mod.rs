@@ -47,3 +47,5 @@ pub fn window_response(table: &[f32], bins: f64) -> f64 {
     }
     (re * re + im * im).sqrt()
 }
+
+pub mod signals;
