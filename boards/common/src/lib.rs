@@ -4,7 +4,6 @@
 //!   markers for the exact-count QEMU plugin in `boards/tools/insn-count`.
 //! * [`checks`]: a tally of named self-checks and the report that ends the run.
 //! * [`exit`]: the exit codes the host sees, the panic handler and the HardFault handler.
-//! * [`fixed`]: board-level Q15/Q31 block pipelines (until the library's fixed analyzer lands).
 //! * [`probe`]: instructions per pipeline stage, through an analyzer's stage probe.
 //! * [`pump`]: the demo pump scenario through an analyzer path, timed.
 //! * [`stages`]: the bare transforms, and budget runs at other block lengths.
@@ -18,7 +17,6 @@
 pub mod checks;
 pub mod count;
 pub mod exit;
-pub mod fixed;
 pub mod probe;
 pub mod pump;
 pub mod selfcheck;

@@ -2,8 +2,9 @@
 //!
 //! The library's invented demo scenario ([`PumpScenario`], a pump set with its derived tones)
 //! is generated as a 16-bit converter at 25.6 kHz would deliver it, in 256-sample DMA-sized
-//! chunks, and pushed into one of three paths: the f32 [`Analyzer`], or the board's Q15 or Q31
-//! pipeline ([`crate::fixed`]). Every path runs Hann, 50 % overlap, a linear average of 8.
+//! chunks, and pushed into one of three analyzers of the library: [`Analyzer`] (f32),
+//! [`AnalyzerQ15`] or [`AnalyzerQ31`]. Every one runs Hann, 50 % overlap, a linear average
+//! of 8.
 //!
 //! Each path is fed twice from the start of the scenario: once through its plain `push`,
 //! timing every call (the pipeline's cost per block, framing included), and once through its
@@ -18,10 +19,9 @@ use core::hint::black_box;
 
 use leakless::analysis::peaks::{strongest_tones, Tone, ToneSearch};
 use leakless::demo::PumpScenario;
-use leakless::{Analyzer, Correction, Scale, Shape, Spectrum, Stage};
+use leakless::{Analyzer, AnalyzerQ15, AnalyzerQ31, Correction, Scale, Shape, Spectrum, Stage};
 
 use crate::count;
-use crate::fixed::{PipelineQ15, PipelineQ31};
 use crate::probe::{self, StageCounter};
 
 /// Sample rate of the scenario's converter, Hz.
@@ -80,36 +80,44 @@ impl<const N: usize, const BINS: usize> Path<BINS> for Analyzer<'_, N, BINS> {
     }
 }
 
-impl<const N: usize, const BINS: usize> Path<BINS> for PipelineQ15<'_, N, BINS> {
+impl<const N: usize, const BINS: usize> Path<BINS> for AnalyzerQ15<'_, N, BINS> {
     fn push_probed(&mut self, counts: &[i16], probe: &mut impl FnMut(Stage)) {
-        PipelineQ15::push_probed(self, counts, probe);
+        AnalyzerQ15::push_probed(self, counts, probe);
     }
     fn push(&mut self, counts: &[i16]) {
-        PipelineQ15::push(self, counts);
+        AnalyzerQ15::push(self, counts);
     }
     fn is_done(&self) -> bool {
-        PipelineQ15::is_done(self)
+        AnalyzerQ15::is_done(self)
     }
     fn reset(&mut self) {
-        PipelineQ15::reset(self);
+        AnalyzerQ15::reset(self);
     }
     fn read(&self, out: &mut Spectrum<BINS>) {
         self.read_into(out, Scale::Power, Correction::Energy);
     }
 }
 
-impl<const N: usize, const BINS: usize> Path<BINS> for PipelineQ31<'_, N, BINS> {
+impl<const N: usize, const BINS: usize> Path<BINS> for AnalyzerQ31<'_, N, BINS> {
     fn push_probed(&mut self, counts: &[i16], probe: &mut impl FnMut(Stage)) {
-        PipelineQ31::push_probed(self, counts, probe);
+        // push_probed takes i32 samples; widen as push_counts does, in short pieces.
+        let mut widened = [0i32; 64];
+        for piece in counts.chunks(widened.len()) {
+            let part = &mut widened[..piece.len()];
+            for (w, &c) in part.iter_mut().zip(piece) {
+                *w = i32::from(c);
+            }
+            AnalyzerQ31::push_probed(self, part, probe);
+        }
     }
     fn push(&mut self, counts: &[i16]) {
-        PipelineQ31::push(self, counts);
+        self.push_counts(counts);
     }
     fn is_done(&self) -> bool {
-        PipelineQ31::is_done(self)
+        AnalyzerQ31::is_done(self)
     }
     fn reset(&mut self) {
-        PipelineQ31::reset(self);
+        AnalyzerQ31::reset(self);
     }
     fn read(&self, out: &mut Spectrum<BINS>) {
         self.read_into(out, Scale::Power, Correction::Energy);

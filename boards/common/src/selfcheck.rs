@@ -10,15 +10,15 @@
 
 use leakless::analysis::bands::{band_rms, Band, Integration};
 use leakless::analysis::peaks::Tone;
+use leakless::compare::{snr_db, tone_level_error_db, worst_line_error_db};
 use leakless::demo::PumpScenario;
 use leakless::spectrum::scale::{rescale, LineGains};
 use leakless::{
-    Analyzer, Averaging, Config, Correction, Scale, Shape, Spectrum, SpectrumInfo, WhenDone,
-    Window, WindowQ15,
+    Analyzer, AnalyzerQ15, AnalyzerQ31, Averaging, Config, Correction, Scale, Shape, Spectrum,
+    SpectrumInfo, WhenDone, Window, WindowQ15, WindowQ31,
 };
 
 use crate::checks::Checks;
-use crate::fixed::{FixedConfig, HannQ31, PipelineQ15, PipelineQ31};
 use crate::pump::{self, Measured, AVERAGES, FULL_SCALE_COUNTS, SAMPLE_RATE_HZ};
 
 /// Block length of the self-check.
@@ -31,9 +31,9 @@ pub static HANN: Window<N> = Window::new(Shape::Hann);
 /// The Q15 Hann window.
 pub static HANN_Q15: WindowQ15<N> = WindowQ15::new(Shape::Hann);
 /// The Q31 Hann window.
-pub static HANN_Q31: HannQ31<N> = HannQ31::new();
+pub static HANN_Q31: WindowQ31<N> = WindowQ31::new(Shape::Hann);
 
-/// The f32 analyzer's settings for the scenario.
+/// The analyzers' settings for the scenario (one `Config` serves all three).
 pub fn config(pump: &PumpScenario) -> Config {
     Config::new(SAMPLE_RATE_HZ)
         .with_overlap_fraction(0.5)
@@ -44,17 +44,6 @@ pub fn config(pump: &PumpScenario) -> Config {
         .with_sensitivity(pump::sensitivity(pump))
         .with_full_scale(FULL_SCALE_COUNTS)
         .with_unit("m/s^2")
-}
-
-/// The same settings for the fixed-point pipelines, at block length `n`.
-pub fn fixed_config(pump: &PumpScenario, n: usize) -> FixedConfig {
-    FixedConfig {
-        sample_rate_hz: SAMPLE_RATE_HZ,
-        overlap: n / 2,
-        averages: AVERAGES,
-        sensitivity: pump::sensitivity(pump),
-        unit: "m/s^2",
-    }
 }
 
 /// What the scenario's own parameters say the analyzers should read.
@@ -274,98 +263,78 @@ pub fn check_resolved_1x<const B: usize>(
     checks.set_context("");
 }
 
-/// Figures comparing a fixed-point spectrum with the float one on the same input.
-#[derive(Clone, Copy, Debug)]
-pub struct Comparison {
-    /// `10 log10(sum A_float^2 / sum (A_fixed - A_float)^2)` over lines 1 ..= N/2, with
-    /// `A = sqrt(mean square)`: the amplitude spectrum's signal-to-error ratio, dB.
-    pub snr_db: f32,
-    /// Largest `|A_fixed - A_float|` of any line, dB below the strongest line.
-    pub worst_line_db: f32,
-    /// The line where that is.
-    pub worst_line: usize,
-    /// Overall RMS, fixed re float, dB.
-    pub overall_db: f32,
+/// The bound the fixed-point analyzer's author states for Q15 against f32
+/// (`tests/fixed_analyzer.rs`, `q15_bounds`): at most 4 output LSB rms of error per line,
+/// one LSB being at most `a_max / 2^14` of line amplitude, so SNR at least
+/// `10 log10(sum a^2 / (BINS (4 a_max / 2^14)^2))`, and the worst line at most
+/// `20 log10(20 / 2^14)` (-58.3 dB) below the strongest. Computed from the float spectrum.
+pub fn q15_bounds<const B: usize>(float: &Spectrum<B>) -> (f32, f32) {
+    let (mut signal, mut a_max) = (0.0f64, 0.0f64);
+    for k in 0..B {
+        let ms = f64::from(float.line_mean_square(k).max(0.0));
+        signal += ms;
+        a_max = a_max.max(libm::sqrt(ms));
+    }
+    let lsb = a_max / 16_384.0;
+    let noise = B as f64 * (4.0 * lsb) * (4.0 * lsb);
+    (
+        (10.0 * libm::log10(signal / noise)) as f32,
+        (20.0 * libm::log10(20.0 / 16_384.0)) as f32,
+    )
 }
 
-/// Compares `fixed` with `float` line by line.
-pub fn compare<const B: usize>(fixed: &Spectrum<B>, float: &Spectrum<B>) -> Comparison {
-    let (mut signal, mut error, mut worst, mut top) = (0.0f64, 0.0f64, 0.0f32, 0.0f32);
-    let mut worst_line = 0;
-    for (k, (&q, &f)) in fixed
-        .values()
-        .iter()
-        .zip(float.values())
-        .enumerate()
-        .skip(1)
-    {
-        let (aq, af) = (libm::sqrtf(q.max(0.0)), libm::sqrtf(f.max(0.0)));
-        signal += f64::from(af * af);
-        error += f64::from((aq - af) * (aq - af));
-        if (aq - af).abs() > worst {
-            worst = (aq - af).abs();
-            worst_line = k;
-        }
-        top = top.max(af);
-    }
-    Comparison {
-        snr_db: (10.0 * libm::log10(signal / error.max(f64::MIN_POSITIVE))) as f32,
-        worst_line_db: 20.0 * libm::log10f(worst.max(f32::MIN_POSITIVE) / top),
-        worst_line,
-        overall_db: 20.0 * libm::log10f(pump::overall_rms(fixed) / pump::overall_rms(float)),
-    }
-}
-
-/// Bounds for a fixed path against float (see [`run_all`] for their justification).
+/// Bounds for a fixed path against float.
 #[derive(Clone, Copy, Debug)]
 pub struct Bounds {
-    /// Minimum amplitude-spectrum SNR, dB.
+    /// Minimum SNR over all lines ([`leakless::compare::snr_db`]), dB.
     pub snr_db: f32,
-    /// Largest vane-pass level difference, dB.
+    /// Largest line error re the strongest line, dB.
+    pub worst_line_db: f32,
+    /// Largest vane-pass level difference (power over its main lobe), dB.
     pub vane_db: f32,
     /// Largest overall RMS difference, dB.
     pub overall_db: f32,
 }
 
-/// Checks a fixed path against float.
+/// Checks a fixed path against float with the library's comparison figures.
+#[inline(never)]
 pub fn check_against_float(
     checks: &mut Checks,
     label: &'static str,
     fixed: &Spectrum<BINS>,
     float: &Spectrum<BINS>,
-    vanes: (Option<Tone>, Option<Tone>),
+    vane: Option<Tone>,
     bounds: Bounds,
 ) {
-    let c = compare(fixed, float);
-    defmt::info!(
-        "{=str} vs f32: amplitude-spectrum SNR {=f32} dB, worst line error {=f32} dB re the strongest line (line {=u32}), overall {=f32} dB",
-        label,
-        c.snr_db,
-        c.worst_line_db,
-        c.worst_line as u32,
-        c.overall_db
-    );
     checks.set_context(label);
-    checks.at_least(
-        " vs f32: amplitude-spectrum SNR, dB",
-        c.snr_db,
-        bounds.snr_db,
+    let snr = snr_db(fixed, float).map_or(f32::NAN, |x| x as f32);
+    let worst = worst_line_error_db(fixed, float).ok();
+    let worst_db = worst.map_or(f32::NAN, |w| w.error_db as f32);
+    let vane_db = vane
+        .and_then(|t| tone_level_error_db(fixed, float, t.peak_line).ok())
+        .map_or(f32::NAN, |x| x as f32);
+    let overall_db = 20.0 * libm::log10f(pump::overall_rms(fixed) / pump::overall_rms(float));
+    defmt::info!(
+        "{=str} vs f32: SNR {=f32} dB, worst line {=f32} dB re the strongest (line {=u32}), vane pass {=f32} dB, overall {=f32} dB",
+        label,
+        snr,
+        worst_db,
+        worst.map_or(0, |w| w.bin as u32),
+        vane_db,
+        overall_db
     );
+    checks.at_least(" vs f32: SNR, dB", snr, bounds.snr_db);
+    checks.check(
+        " vs f32: worst line within bound",
+        worst_db <= bounds.worst_line_db,
+    );
+    checks.close(" vs f32: vane pass level, dB", vane_db, 0.0, bounds.vane_db);
     checks.close(
         " vs f32: overall RMS, dB",
-        c.overall_db,
+        overall_db,
         0.0,
         bounds.overall_db,
     );
-    match vanes {
-        (Some(q), Some(f)) => {
-            let db = 20.0 * libm::log10f(q.rms / f.rms);
-            checks.close(" vs f32: vane pass level, dB", db, 0.0, bounds.vane_db);
-        }
-        _ => {
-            checks.check(" vs f32: vane pass found in both", false);
-        }
-    }
     checks.set_context("");
 }
 
@@ -413,21 +382,37 @@ pub fn run_q15(checks: &mut Checks) -> Measured {
     log_setup(&pump, &expected);
     // Used in place, by reference: moving 8 KiB out of the Result would need a second
     // copy of it on the 16 KiB core's stack.
-    let mut made = PipelineQ15::<N, BINS>::new(&HANN_Q15, fixed_config(&pump, N));
+    let mut made = AnalyzerQ15::<N, BINS>::new(&HANN_Q15, config(&pump));
     let Ok(q15) = &mut made else {
-        checks.check("Q15 pipeline configured", false);
+        checks.check("Q15 analyzer configured", false);
         return Measured::default();
     };
-    log_ram::<PipelineQ15<N, BINS>>("Q15 N=1024", 2 * N + 2 * N + 8 * BINS);
+    log_ram::<AnalyzerQ15<N, BINS>>("Q15 N=1024", 2 * N + 2 * N + 8 * BINS);
     let mut out = empty_spectrum::<BINS>(N, HANN_Q15.factors());
     let m = pump::measure::<N, BINS, _>("Q15 N=1024", q15, &mut out);
-    checks.check("Q15: no block rejected", q15.rejected() == 0);
-    defmt::info!(
-        "Q15 N=1024 accumulator checksum {=u32:#010x}",
-        q15.checksum()
+    checks.check(
+        "Q15: no block rejected",
+        q15.status().overloaded == 0 && q15.status().rejected_non_finite == 0,
     );
+    log_checksum("Q15 N=1024", q15.raw_power());
     check_spectrum(checks, "Q15", &out, &expected, m.blocks);
     m
+}
+
+/// Logs a checksum (FNV-1a) of a fixed analyzer's raw average: integer-only, so it must be
+/// the same on every core for the same input (`.ci/boards.sh` compares M0 with M4).
+pub fn log_checksum<const B: usize>(label: &str, raw: leakless::spectrum::fixed::RawPower<'_, B>) {
+    let mut h = 0x811C_9DC5u32;
+    let mut eat = |b: u8| {
+        h ^= u32::from(b);
+        h = h.wrapping_mul(0x0100_0193);
+    };
+    for m in raw.mantissas.iter() {
+        m.to_le_bytes().into_iter().for_each(&mut eat);
+    }
+    raw.exponent.to_le_bytes().into_iter().for_each(&mut eat);
+    raw.divisor.to_le_bytes().into_iter().for_each(&mut eat);
+    defmt::info!("{=str} raw average checksum {=u32:#010x}", label, h);
 }
 
 /// Logs `size_of::<T>()` against the bytes of its buffers.
@@ -442,22 +427,14 @@ pub fn log_ram<T>(label: &str, buffers: usize) {
     );
 }
 
-/// The three paths (the Cortex-M4F run): checks, fixed against float, and measurements
+/// The three analyzers (the Cortex-M4F run): checks, fixed against float, and measurements
 /// `[f32, Q15, Q31]`.
 ///
-/// Fixed against float, bounds (measured here, before the fixed-point analyzer states its
-/// own; rustc 1.95, QEMU 7.2):
-///
-/// * Q15: the amplitude spectrum measured 80.7 dB SNR against f32. The Q15 transform alone
-///   is documented at 70.1 dB on one block of two tones (`fft::fixed` docs); averaging 8
-///   power spectra lowers the error's spread, hence the 10 dB more here. The bound, 70 dB,
-///   is the single-block figure (what is left if averaging helped nothing) and fails for a
-///   normalisation that loses two bits (12 dB). The vane pass and the overall RMS rest on
-///   the strongest lines, where 80 dB SNR means ~1e-4 relative, 0.001 dB (measured 4e-5 dB);
-///   bound 0.01 dB.
-/// * Q31: measured 143.9 dB, which is the f32 path's own rounding (2^-24 = -144 dB): the
-///   comparison cannot see Q31's error. Bound 130 dB (14 dB under), and 0.0001 dB on the
-///   vane pass and the overall RMS (f32 rounding is ~1e-6 dB).
+/// Fixed against float: SNR and worst line use the bounds the fixed-point analyzer's author
+/// states ([`q15_bounds`]; Q31: 115 dB, the f32 path's own 137-140 dB FFT accuracy less 20 dB
+/// of margin, `tests/fixed_analyzer.rs`). The vane pass and the overall RMS rest on the
+/// strongest lines, where the Q15 error (4 LSB of 2^14 at most) is 2.4e-4 relative,
+/// 0.002 dB: bound 0.01 dB. Q31's error is below f32 rounding (~1e-6 dB): bound 0.0001 dB.
 #[inline(never)]
 pub fn run_all(checks: &mut Checks) -> [Measured; 3] {
     let pump = PumpScenario::new();
@@ -466,63 +443,68 @@ pub fn run_all(checks: &mut Checks) -> [Measured; 3] {
     let mut m = [Measured::default(); 3];
 
     let mut float_out = empty_spectrum::<BINS>(N, HANN.factors());
-    let vane_f = match Analyzer::<N, BINS>::new(&HANN, config(&pump)) {
-        Ok(mut a) => {
-            log_ram::<Analyzer<N, BINS>>("f32 N=1024", 4 * N + 4 * N + 4 * BINS);
-            m[0] = pump::measure::<N, BINS, _>("f32 N=1024", &mut a, &mut float_out);
-            checks.check(
-                "f32: no block rejected",
-                a.status().rejected_non_finite == 0 && a.status().overloaded == 0,
-            );
-            defmt::info!(
-                "f32 N=1024: the analyzer's own overall_rms {=f32} m/s^2",
-                a.overall_rms(false)
-            );
-            check_spectrum(checks, "f32", &float_out, &expected, m[0].blocks)
-        }
-        Err(_) => {
-            checks.check("f32 analyzer configured", false);
-            None
-        }
+    let mut made = Analyzer::<N, BINS>::new(&HANN, config(&pump));
+    let vane = if let Ok(a) = &mut made {
+        log_ram::<Analyzer<N, BINS>>("f32 N=1024", 4 * N + 4 * N + 4 * BINS);
+        m[0] = pump::measure::<N, BINS, _>("f32 N=1024", a, &mut float_out);
+        checks.check(
+            "f32: no block rejected",
+            a.status().rejected_non_finite == 0 && a.status().overloaded == 0,
+        );
+        defmt::info!(
+            "f32 N=1024: the analyzer's own overall_rms {=f32} m/s^2",
+            a.overall_rms(false)
+        );
+        check_spectrum(checks, "f32", &float_out, &expected, m[0].blocks)
+    } else {
+        checks.check("f32 analyzer configured", false);
+        None
     };
 
     let mut q_out = empty_spectrum::<BINS>(N, HANN_Q15.factors());
-    if let Ok(mut q15) = PipelineQ15::<N, BINS>::new(&HANN_Q15, fixed_config(&pump, N)) {
-        log_ram::<PipelineQ15<N, BINS>>("Q15 N=1024", 2 * N + 2 * N + 8 * BINS);
-        m[1] = pump::measure::<N, BINS, _>("Q15 N=1024", &mut q15, &mut q_out);
-        checks.check("Q15: no block rejected", q15.rejected() == 0);
-        defmt::info!(
-            "Q15 N=1024 accumulator checksum {=u32:#010x}",
-            q15.checksum()
+    let mut made = AnalyzerQ15::<N, BINS>::new(&HANN_Q15, config(&pump));
+    if let Ok(q15) = &mut made {
+        log_ram::<AnalyzerQ15<N, BINS>>("Q15 N=1024", 2 * N + 2 * N + 8 * BINS);
+        m[1] = pump::measure::<N, BINS, _>("Q15 N=1024", q15, &mut q_out);
+        checks.check(
+            "Q15: no block rejected",
+            q15.status().overloaded == 0 && q15.status().rejected_non_finite == 0,
         );
-        let vane_q = check_spectrum(checks, "Q15", &q_out, &expected, m[1].blocks);
+        log_checksum("Q15 N=1024", q15.raw_power());
+        check_spectrum(checks, "Q15", &q_out, &expected, m[1].blocks);
+        let (snr_db, worst_line_db) = q15_bounds(&float_out);
         let bounds = Bounds {
-            snr_db: 70.0,
+            snr_db,
+            worst_line_db,
             vane_db: 0.01,
             overall_db: 0.01,
         };
-        check_against_float(checks, "Q15", &q_out, &float_out, (vane_q, vane_f), bounds);
+        check_against_float(checks, "Q15", &q_out, &float_out, vane, bounds);
     } else {
-        checks.check("Q15 pipeline configured", false);
+        checks.check("Q15 analyzer configured", false);
     }
 
-    if let Ok(mut q31) = PipelineQ31::<N, BINS>::new(&HANN_Q31, fixed_config(&pump, N)) {
-        log_ram::<PipelineQ31<N, BINS>>("Q31 N=1024", 2 * N + 2 * N + 4 * N + 8 * BINS);
-        m[2] = pump::measure::<N, BINS, _>("Q31 N=1024", &mut q31, &mut q_out);
-        checks.check("Q31: no block rejected", q31.rejected() == 0);
-        defmt::info!(
-            "Q31 N=1024 accumulator checksum {=u32:#010x}",
-            q31.checksum()
+    let mut q_out = empty_spectrum::<BINS>(N, HANN_Q31.factors());
+    let mut made = AnalyzerQ31::<N, BINS>::new(&HANN_Q31, config(&pump));
+    if let Ok(q31) = &mut made {
+        log_ram::<AnalyzerQ31<N, BINS>>("Q31 N=1024", 4 * N + 4 * N + 8 * BINS);
+        m[2] = pump::measure::<N, BINS, _>("Q31 N=1024", q31, &mut q_out);
+        checks.check(
+            "Q31: no block rejected",
+            q31.status().overloaded == 0 && q31.status().rejected_non_finite == 0,
         );
-        let vane_q = check_spectrum(checks, "Q31", &q_out, &expected, m[2].blocks);
+        log_checksum("Q31 N=1024", q31.raw_power());
+        check_spectrum(checks, "Q31", &q_out, &expected, m[2].blocks);
         let bounds = Bounds {
-            snr_db: 130.0,
+            snr_db: 115.0,
+            // Not stated for Q31; the Q15 bound is 80 dB looser than Q31's SNR bound needs.
+            worst_line_db: -100.0,
             vane_db: 0.0001,
             overall_db: 0.0001,
         };
-        check_against_float(checks, "Q31", &q_out, &float_out, (vane_q, vane_f), bounds);
+        check_against_float(checks, "Q31", &q_out, &float_out, vane, bounds);
     } else {
-        checks.check("Q31 pipeline configured", false);
+        checks.check("Q31 analyzer configured", false);
     }
     m
 }

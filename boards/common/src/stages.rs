@@ -9,15 +9,12 @@ use core::hint::black_box;
 use leakless::demo::PumpScenario;
 use leakless::fft::fixed::{rfft_q15, rfft_q31};
 use leakless::fft::float::rfft;
-use leakless::{Analyzer, Window, WindowQ15};
+use leakless::{Analyzer, AnalyzerQ15, AnalyzerQ31, Window, WindowQ15, WindowQ31};
 
 use crate::checks::Checks;
 use crate::count;
-use crate::fixed::{HannQ31, PipelineQ15, PipelineQ31};
 use crate::pump;
-use crate::selfcheck::{
-    check_resolved_1x, config, empty_spectrum, fixed_config, log_ram, Expected,
-};
+use crate::selfcheck::{check_resolved_1x, config, empty_spectrum, log_ram, Expected};
 
 /// A Hann-windowed block of the scenario's first `N` counts (the transforms' cost depends on
 /// the data only on the soft-float core; this keeps it the same for every path).
@@ -95,10 +92,11 @@ pub fn budget_f32<const N: usize, const BINS: usize>(
     checks: Option<&mut Checks>,
 ) {
     let pump = PumpScenario::new();
-    if let Ok(mut a) = Analyzer::<N, BINS>::new(window, config(&pump)) {
+    let mut made = Analyzer::<N, BINS>::new(window, config(&pump));
+    if let Ok(a) = &mut made {
         log_ram::<Analyzer<N, BINS>>(label, 8 * N + 4 * BINS);
         let mut out = empty_spectrum::<BINS>(N, window.factors());
-        pump::measure::<N, BINS, _>(label, &mut a, &mut out);
+        pump::measure::<N, BINS, _>(label, a, &mut out);
         pump::tones(label, &out);
         if let Some(checks) = checks {
             check_resolved_1x(checks, label, &out, &Expected::of(&pump));
@@ -106,7 +104,7 @@ pub fn budget_f32<const N: usize, const BINS: usize>(
     }
 }
 
-/// The budget run of the Q15 pipeline at `N`; with `checks`, the resolved-1x check.
+/// The budget run of the Q15 analyzer at `N`; with `checks`, the resolved-1x check.
 #[inline(never)]
 pub fn budget_q15<const N: usize, const BINS: usize>(
     label: &'static str,
@@ -114,9 +112,9 @@ pub fn budget_q15<const N: usize, const BINS: usize>(
     checks: Option<&mut Checks>,
 ) {
     let pump = PumpScenario::new();
-    let mut made = PipelineQ15::<N, BINS>::new(window, fixed_config(&pump, N));
+    let mut made = AnalyzerQ15::<N, BINS>::new(window, config(&pump));
     if let Ok(q) = &mut made {
-        log_ram::<PipelineQ15<N, BINS>>(label, 4 * N + 8 * BINS);
+        log_ram::<AnalyzerQ15<N, BINS>>(label, 4 * N + 8 * BINS);
         let mut out = empty_spectrum::<BINS>(N, window.factors());
         pump::measure::<N, BINS, _>(label, q, &mut out);
         pump::tones(label, &out);
@@ -126,18 +124,19 @@ pub fn budget_q15<const N: usize, const BINS: usize>(
     }
 }
 
-/// The budget run of the Q31 pipeline at `N`; with `checks`, the resolved-1x check.
+/// The budget run of the Q31 analyzer at `N`; with `checks`, the resolved-1x check.
 #[inline(never)]
 pub fn budget_q31<const N: usize, const BINS: usize>(
     label: &'static str,
-    window: &HannQ31<N>,
+    window: &WindowQ31<N>,
     checks: Option<&mut Checks>,
 ) {
     let pump = PumpScenario::new();
-    if let Ok(mut q) = PipelineQ31::<N, BINS>::new(window, fixed_config(&pump, N)) {
-        log_ram::<PipelineQ31<N, BINS>>(label, 8 * N + 8 * BINS);
+    let mut made = AnalyzerQ31::<N, BINS>::new(window, config(&pump));
+    if let Ok(q) = &mut made {
+        log_ram::<AnalyzerQ31<N, BINS>>(label, 8 * N + 8 * BINS);
         let mut out = empty_spectrum::<BINS>(N, window.factors());
-        pump::measure::<N, BINS, _>(label, &mut q, &mut out);
+        pump::measure::<N, BINS, _>(label, q, &mut out);
         pump::tones(label, &out);
         if let Some(checks) = checks {
             check_resolved_1x(checks, label, &out, &Expected::of(&pump));

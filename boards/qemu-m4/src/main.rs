@@ -7,13 +7,12 @@
 #![no_main]
 
 use board_common::checks::Checks;
-use board_common::fixed::HannQ31;
 use board_common::selfcheck::{self, HANN_Q15};
 use board_common::{count, exit, stack, stages};
 use cortex_m as _; // its critical-section implementation must be linked
 use cortex_m_rt::entry;
 use defmt_semihosting as _; // the global defmt logger: frames over semihosting to stdout
-use leakless::{Shape, Window, WindowQ15};
+use leakless::{Shape, Window, WindowQ15, WindowQ31};
 
 /// SysTick with CLKSOURCE = core runs from the mps2 SYSCLK, 25 MHz: 40 instructions a tick
 /// under `-icount shift=0`.
@@ -22,10 +21,10 @@ const CORE_CLOCK_HZ: u32 = 25_000_000;
 // Windows of the budget runs, evaluated by the compiler; statics, so they stay in flash.
 static HANN_256: Window<256> = Window::new(Shape::Hann);
 static HANN_Q15_256: WindowQ15<256> = WindowQ15::new(Shape::Hann);
-static HANN_Q31_256: HannQ31<256> = HannQ31::new();
+static HANN_Q31_256: WindowQ31<256> = WindowQ31::new(Shape::Hann);
 static HANN_4096: Window<4096> = Window::new(Shape::Hann);
 static HANN_Q15_4096: WindowQ15<4096> = WindowQ15::new(Shape::Hann);
-static HANN_Q31_4096: HannQ31<4096> = HannQ31::new();
+static HANN_Q31_4096: WindowQ31<4096> = WindowQ31::new(Shape::Hann);
 
 #[entry]
 fn main() -> ! {
