@@ -167,10 +167,11 @@ fn feed<const BINS: usize, P: Path<BINS>>(
 }
 
 /// Runs `path` over the scenario, logs its stage counts, and leaves its average in `out`.
-/// Block `traced` of the probed pass is also counted exactly by the plugin.
+/// Block 2 of the probed pass (the third, past the start-up) is also counted exactly by the
+/// plugin; `read_label` names the read-out region.
 #[inline(never)]
 pub fn measure<const N: usize, const BINS: usize, P: Path<BINS>>(
-    label: &'static str,
+    (label, read_label): (&'static str, &'static str),
     path: &mut P,
     out: &mut Spectrum<BINS>,
 ) -> Measured {
@@ -190,7 +191,7 @@ pub fn measure<const N: usize, const BINS: usize, P: Path<BINS>>(
     for (i, &stage) in probe::STAGES.iter().enumerate() {
         m.stages[i] = counter.mean(stage);
     }
-    m.read_out = count::stage(label, || path.read(black_box(&mut *out)));
+    m.read_out = count::stage(read_label, || path.read(black_box(&mut *out)));
     defmt::info!(
         "{=str}: {=u32} blocks from {=u32} chunks of {=u32}; per block {=u32} insns (push, framing included); stages condition {=u32} window {=u32} transform {=u32} average {=u32} (sum {=u32}); read-out {=u32} per average; generator {=u32} insns/sample (not in the budget)",
         label,

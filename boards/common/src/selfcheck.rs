@@ -389,7 +389,14 @@ pub fn run_q15(checks: &mut Checks) -> Measured {
     };
     log_ram::<AnalyzerQ15<N, BINS>>("Q15 N=1024", 2 * N + 2 * N + 8 * BINS);
     let mut out = empty_spectrum::<BINS>(N, HANN_Q15.factors());
-    let m = pump::measure::<N, BINS, _>("Q15 N=1024", q15, &mut out);
+    let m = pump::measure::<N, BINS, _>(
+        (
+            "Q15 N=1024",
+            "Q15 N=1024: read-out (scale), once per average",
+        ),
+        q15,
+        &mut out,
+    );
     checks.check(
         "Q15: no block rejected",
         q15.status().overloaded == 0 && q15.status().rejected_non_finite == 0,
@@ -446,7 +453,14 @@ pub fn run_all(checks: &mut Checks) -> [Measured; 3] {
     let mut made = Analyzer::<N, BINS>::new(&HANN, config(&pump));
     let vane = if let Ok(a) = &mut made {
         log_ram::<Analyzer<N, BINS>>("f32 N=1024", 4 * N + 4 * N + 4 * BINS);
-        m[0] = pump::measure::<N, BINS, _>("f32 N=1024", a, &mut float_out);
+        m[0] = pump::measure::<N, BINS, _>(
+            (
+                "f32 N=1024",
+                "f32 N=1024: read-out (scale), once per average",
+            ),
+            a,
+            &mut float_out,
+        );
         checks.check(
             "f32: no block rejected",
             a.status().rejected_non_finite == 0 && a.status().overloaded == 0,
@@ -465,7 +479,14 @@ pub fn run_all(checks: &mut Checks) -> [Measured; 3] {
     let mut made = AnalyzerQ15::<N, BINS>::new(&HANN_Q15, config(&pump));
     if let Ok(q15) = &mut made {
         log_ram::<AnalyzerQ15<N, BINS>>("Q15 N=1024", 2 * N + 2 * N + 8 * BINS);
-        m[1] = pump::measure::<N, BINS, _>("Q15 N=1024", q15, &mut q_out);
+        m[1] = pump::measure::<N, BINS, _>(
+            (
+                "Q15 N=1024",
+                "Q15 N=1024: read-out (scale), once per average",
+            ),
+            q15,
+            &mut q_out,
+        );
         checks.check(
             "Q15: no block rejected",
             q15.status().overloaded == 0 && q15.status().rejected_non_finite == 0,
@@ -488,7 +509,14 @@ pub fn run_all(checks: &mut Checks) -> [Measured; 3] {
     let mut made = AnalyzerQ31::<N, BINS>::new(&HANN_Q31, config(&pump));
     if let Ok(q31) = &mut made {
         log_ram::<AnalyzerQ31<N, BINS>>("Q31 N=1024", 4 * N + 4 * N + 8 * BINS);
-        m[2] = pump::measure::<N, BINS, _>("Q31 N=1024", q31, &mut q_out);
+        m[2] = pump::measure::<N, BINS, _>(
+            (
+                "Q31 N=1024",
+                "Q31 N=1024: read-out (scale), once per average",
+            ),
+            q31,
+            &mut q_out,
+        );
         checks.check(
             "Q31: no block rejected",
             q31.status().overloaded == 0 && q31.status().rejected_non_finite == 0,

@@ -87,7 +87,7 @@ fn bare_q31<const N: usize>(label: &'static str, hann: &WindowQ15<N>) {
 /// The budget run of the f32 analyzer at `N`; with `checks`, the resolved-1x check.
 #[inline(never)]
 pub fn budget_f32<const N: usize, const BINS: usize>(
-    label: &'static str,
+    (label, read_label): (&'static str, &'static str),
     window: &Window<N>,
     checks: Option<&mut Checks>,
 ) {
@@ -96,7 +96,7 @@ pub fn budget_f32<const N: usize, const BINS: usize>(
     if let Ok(a) = &mut made {
         log_ram::<Analyzer<N, BINS>>(label, 8 * N + 4 * BINS);
         let mut out = empty_spectrum::<BINS>(N, window.factors());
-        pump::measure::<N, BINS, _>(label, a, &mut out);
+        pump::measure::<N, BINS, _>((label, read_label), a, &mut out);
         pump::tones(label, &out);
         if let Some(checks) = checks {
             check_resolved_1x(checks, label, &out, &Expected::of(&pump));
@@ -107,7 +107,7 @@ pub fn budget_f32<const N: usize, const BINS: usize>(
 /// The budget run of the Q15 analyzer at `N`; with `checks`, the resolved-1x check.
 #[inline(never)]
 pub fn budget_q15<const N: usize, const BINS: usize>(
-    label: &'static str,
+    (label, read_label): (&'static str, &'static str),
     window: &WindowQ15<N>,
     checks: Option<&mut Checks>,
 ) {
@@ -116,7 +116,7 @@ pub fn budget_q15<const N: usize, const BINS: usize>(
     if let Ok(q) = &mut made {
         log_ram::<AnalyzerQ15<N, BINS>>(label, 4 * N + 8 * BINS);
         let mut out = empty_spectrum::<BINS>(N, window.factors());
-        pump::measure::<N, BINS, _>(label, q, &mut out);
+        pump::measure::<N, BINS, _>((label, read_label), q, &mut out);
         pump::tones(label, &out);
         if let Some(checks) = checks {
             check_resolved_1x(checks, label, &out, &Expected::of(&pump));
@@ -127,7 +127,7 @@ pub fn budget_q15<const N: usize, const BINS: usize>(
 /// The budget run of the Q31 analyzer at `N`; with `checks`, the resolved-1x check.
 #[inline(never)]
 pub fn budget_q31<const N: usize, const BINS: usize>(
-    label: &'static str,
+    (label, read_label): (&'static str, &'static str),
     window: &WindowQ31<N>,
     checks: Option<&mut Checks>,
 ) {
@@ -136,7 +136,7 @@ pub fn budget_q31<const N: usize, const BINS: usize>(
     if let Ok(q) = &mut made {
         log_ram::<AnalyzerQ31<N, BINS>>(label, 8 * N + 8 * BINS);
         let mut out = empty_spectrum::<BINS>(N, window.factors());
-        pump::measure::<N, BINS, _>(label, q, &mut out);
+        pump::measure::<N, BINS, _>((label, read_label), q, &mut out);
         pump::tones(label, &out);
         if let Some(checks) = checks {
             check_resolved_1x(checks, label, &out, &Expected::of(&pump));

@@ -48,7 +48,11 @@ fn main() -> ! {
         false,
         false,
     );
-    stages::budget_q15::<256, 129>("Q15 N=256", &HANN_Q15_256, None);
+    stages::budget_q15::<256, 129>(
+        ("Q15 N=256", "Q15 N=256: read-out (scale), once per average"),
+        &HANN_Q15_256,
+        None,
+    );
 
     force_exit_paths(&mut checks);
     checks.stack();

@@ -64,9 +64,21 @@ fn main() -> ! {
         true,
         true,
     );
-    stages::budget_f32::<256, 129>("f32 N=256", &HANN_256, None);
-    stages::budget_q15::<256, 129>("Q15 N=256", &HANN_Q15_256, None);
-    stages::budget_q31::<256, 129>("Q31 N=256", &HANN_Q31_256, None);
+    stages::budget_f32::<256, 129>(
+        ("f32 N=256", "f32 N=256: read-out (scale), once per average"),
+        &HANN_256,
+        None,
+    );
+    stages::budget_q15::<256, 129>(
+        ("Q15 N=256", "Q15 N=256: read-out (scale), once per average"),
+        &HANN_Q15_256,
+        None,
+    );
+    stages::budget_q31::<256, 129>(
+        ("Q31 N=256", "Q31 N=256: read-out (scale), once per average"),
+        &HANN_Q31_256,
+        None,
+    );
     stages::bare::<4096>(
         [
             "bare rfft f32 N=4096 (microfft)",
@@ -77,9 +89,30 @@ fn main() -> ! {
         true,
         true,
     );
-    stages::budget_f32::<4096, 2049>("f32 N=4096", &HANN_4096, Some(&mut checks));
-    stages::budget_q15::<4096, 2049>("Q15 N=4096", &HANN_Q15_4096, Some(&mut checks));
-    stages::budget_q31::<4096, 2049>("Q31 N=4096", &HANN_Q31_4096, Some(&mut checks));
+    stages::budget_f32::<4096, 2049>(
+        (
+            "f32 N=4096",
+            "f32 N=4096: read-out (scale), once per average",
+        ),
+        &HANN_4096,
+        Some(&mut checks),
+    );
+    stages::budget_q15::<4096, 2049>(
+        (
+            "Q15 N=4096",
+            "Q15 N=4096: read-out (scale), once per average",
+        ),
+        &HANN_Q15_4096,
+        Some(&mut checks),
+    );
+    stages::budget_q31::<4096, 2049>(
+        (
+            "Q31 N=4096",
+            "Q31 N=4096: read-out (scale), once per average",
+        ),
+        &HANN_Q31_4096,
+        Some(&mut checks),
+    );
 
     force_exit_paths(&mut checks);
     checks.stack();
