@@ -371,7 +371,7 @@ pub fn log_setup(pump: &PumpScenario, expected: &Expected) {
         "scenario: overall {=f32} m/s^2 rms (tones + impacts + noise)",
         expected.overall_rms
     );
-    defmt::info!("f32 config: {}", config(pump));
+    defmt::info!("config (every analyzer): {}", config(pump));
 }
 
 /// The Q15 path alone (the Cortex-M0 run): checks, and its measurements.
