@@ -3,12 +3,14 @@
 //!
 //! `cargo bench --bench fixed --features fixed -- --warm-up-time 0.5 --measurement-time 2`
 //!
-//! Each analyzer's output is checked once against the f32 one before it is timed.
+//! Each analyzer's output is checked once against the f32 one before it is timed. The
+//! `bare_rfft` group times `rfft_q15` / `rfft_q31` alone on a copied block, for the ratio.
 
 use std::hint::black_box;
 
 use criterion::{criterion_group, criterion_main, BenchmarkId, Criterion};
 use leakless::compare::snr_db;
+use leakless::fft::fixed::{rfft_q15, rfft_q31};
 use leakless::{
     Analyzer, AnalyzerQ15, AnalyzerQ31, Averaging, Config, Correction, Scale, Shape, Window,
     WindowQ15, WindowQ31,
@@ -71,6 +73,25 @@ fn pipeline<const N: usize, const BINS: usize>(c: &mut Criterion) {
         b.iter(|| q31.push(black_box(&block32)))
     });
     group.finish();
+
+    // The transforms alone on a copy of the windowed block, for the pipeline / bare ratio.
+    let windowed: [i16; N] =
+        core::array::from_fn(|n| ((block[n] as i32 * q15_window.table()[n] as i32) >> 15) as i16);
+    let windowed32: [i32; N] = windowed.map(|v| i32::from(v) << 16);
+    let mut bare = c.benchmark_group("bare_rfft");
+    bare.bench_function(BenchmarkId::new("q15", N), |b| {
+        b.iter(|| {
+            let mut data = black_box(windowed);
+            rfft_q15(&mut data)
+        })
+    });
+    bare.bench_function(BenchmarkId::new("q31", N), |b| {
+        b.iter(|| {
+            let mut data = black_box(windowed32);
+            rfft_q31(&mut data)
+        })
+    });
+    bare.finish();
 }
 
 fn benches(c: &mut Criterion) {

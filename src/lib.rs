@@ -21,6 +21,11 @@
 //! engineering units (input times sensitivity), and carry the window [`Correction`] they were
 //! read with; [`spectrum::scale`] tabulates every factor.
 //!
+//! Without an FPU (or to save RAM), [`AnalyzerQ15`] and [`AnalyzerQ31`] (feature `fixed`) run
+//! the same pipeline in integers on `i16` / `i32` counts, with the same [`Config`] and the
+//! same [`Spectrum`] read-out, plus integer levels for cores where float is costly;
+//! [`compare`] measures one spectrum against another (fixed point against float).
+//!
 //! ## Optional features
 //!
 //! | feature | default | what it adds |

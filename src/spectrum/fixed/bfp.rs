@@ -281,6 +281,8 @@ mod tests {
         assert_eq!(value(&a, 2), 64.0);
     }
 
+    // By definition: peak hold keeps each line's largest value; an all-zero block (no bits)
+    // changes nothing and does not disturb the exponent.
     #[test]
     fn peak_hold_and_zero_blocks() {
         let mut a = PowerAverage::<3>::new(Averaging::PeakHold, 0, 0);

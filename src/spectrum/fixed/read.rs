@@ -6,6 +6,7 @@
 use super::bfp::{bit_length, PowerAverage};
 use super::{FixedAnalyzer, FixedWindow};
 use crate::error::ConfigError;
+use crate::fft::fixed::{MAX_LEN, MIN_LEN};
 use crate::spectrum::condition::Conditioning;
 use crate::spectrum::config::{Config, Status};
 use crate::spectrum::frame::Framer;
@@ -15,6 +16,7 @@ use crate::spectrum::scale::{Correction, LineGains, Scale, Spectrum, SpectrumInf
 /// (counts squared, before any window correction or one-sided fold) is
 /// `mantissas[k] * 2^exponent / divisor`.
 #[derive(Clone, Copy, Debug, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct RawPower<'s, const BINS: usize> {
     /// One mantissa per line, DC first.
     pub mantissas: &'s [u64; BINS],
@@ -58,7 +60,7 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
     pub fn new(window: &'a W, config: Config) -> Result<Self, ConfigError> {
         const {
             assert!(
-                N.is_power_of_two() && N >= 64 && N <= 4096,
+                N.is_power_of_two() && N >= MIN_LEN && N <= MAX_LEN,
                 "N must be a power of two from 64 to 4096"
             );
             assert!(BINS == N / 2 + 1, "BINS must be N/2 + 1");
