@@ -6,8 +6,9 @@
 # llvm-tools if /usr/bin/llvm-size is absent), rebuilds the QEMU plugin only when stale.
 # Fails on: a board that does not build with --locked, fmt or clippy findings, a QEMU board
 # whose firmware exits non-zero (failed self-check 1, panic 101, HardFault 102, timeout 124),
-# SysTick counts that disagree with the plugin's exact counts, or an exit code that does not
-# reach the host (the force-fail build must exit 1).
+# SysTick counts that disagree with the plugin's exact counts, a Q15 raw average that differs
+# between the Cortex-M0 and the Cortex-M4F (integer arithmetic on the same input must agree
+# bit for bit), or an exit code that does not reach the host (the force-fail build must exit 1).
 set -euo pipefail
 ROOT=$(cd "$(dirname "$0")/.." && pwd)
 # Each board has its own .cargo/config.toml, target/ and Cargo.lock. A RUSTFLAGS from the
@@ -50,14 +51,29 @@ for b in "${BOARDS[@]}"; do
 done
 
 step "run the QEMU boards"
+LOGS=$(mktemp -d)
+trap 'rm -rf "$LOGS"' EXIT
 for b in qemu-m4 qemu-m0; do
   echo "-- $b"
-  (cd "$ROOT/boards/$b" && cargo run --release --locked -q) || {
-    rc=$?
+  set +e
+  (cd "$ROOT/boards/$b" && cargo run --release --locked -q) 2>&1 | tee "$LOGS/$b.log"
+  rc=${PIPESTATUS[0]}
+  set -e
+  if [ "$rc" -ne 0 ]; then
     echo "boards.sh: $b firmware exited with $rc" >&2
     exit 1
-  }
+  fi
 done
+# The Q15 analyzer is integer-only per block and the scenario generator uses IEEE add and
+# multiply only (plus libm), so both cores must produce the same raw average.
+sum() { sed -n 's/.*Q15 N=1024 raw average checksum \(0x[0-9a-f]*\).*/\1/p' "$LOGS/$1.log"; }
+m4=$(sum qemu-m4)
+m0=$(sum qemu-m0)
+if [ -z "$m4" ] || [ "$m4" != "$m0" ]; then
+  echo "boards.sh: Q15 raw average differs between M4 ($m4) and M0 ($m0)" >&2
+  exit 1
+fi
+echo "Q15 raw average identical on M4 and M0: $m4"
 
 step "exact instruction counts (QEMU TCG plugin)"
 COUNT=$ROOT/boards/tools/insn-count/count.sh

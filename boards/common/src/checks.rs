@@ -14,22 +14,32 @@ use crate::exit::{exit, CHECK_FAILED, PASS};
 pub struct Checks {
     run: u32,
     failed: u32,
+    context: &'static str,
 }
 
 impl Checks {
     /// No checks yet.
     pub const fn new() -> Self {
-        Checks { run: 0, failed: 0 }
+        Checks {
+            run: 0,
+            failed: 0,
+            context: "",
+        }
+    }
+
+    /// Prefixes the names of the checks that follow (e.g. the analyzer they are about).
+    pub fn set_context(&mut self, context: &'static str) {
+        self.context = context;
     }
 
     /// Records one check and logs it; returns `ok`.
     pub fn check(&mut self, name: &str, ok: bool) -> bool {
         self.run += 1;
         if ok {
-            defmt::info!("ok   {=str}", name);
+            defmt::info!("ok   {=str}{=str}", self.context, name);
         } else {
             self.failed += 1;
-            defmt::error!("FAIL {=str}", name);
+            defmt::error!("FAIL {=str}{=str}", self.context, name);
         }
         ok
     }
@@ -41,13 +51,33 @@ impl Checks {
         let ok = error.abs() <= tolerance;
         let tag = if ok { "ok  " } else { "FAIL" };
         defmt::info!(
-            "{=str} {=str}: {=f32} (expected {=f32} +- {=f32}, error {=f32})",
+            "{=str} {=str}{=str}: {=f32} (expected {=f32} +- {=f32}, error {=f32})",
             tag,
+            self.context,
             name,
             value,
             expected,
             tolerance,
             error
+        );
+        self.run += 1;
+        if !ok {
+            self.failed += 1;
+        }
+        ok
+    }
+
+    /// Checks `value >= bound` and logs both. NaN fails.
+    pub fn at_least(&mut self, name: &str, value: f32, bound: f32) -> bool {
+        let ok = value >= bound;
+        let tag = if ok { "ok  " } else { "FAIL" };
+        defmt::info!(
+            "{=str} {=str}{=str}: {=f32} (bound >= {=f32})",
+            tag,
+            self.context,
+            name,
+            value,
+            bound
         );
         self.run += 1;
         if !ok {
@@ -75,6 +105,7 @@ impl Checks {
             used,
             size
         );
+        self.context = "";
         // The bottom word still painted means the stack never reached the statics; a stack
         // that did would have overwritten them without any fault.
         self.check("stack stayed clear of the statics", used < size);

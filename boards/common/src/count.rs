@@ -85,6 +85,24 @@ fn now_ticks() -> u64 {
     }
 }
 
+/// The counter now, in SysTick ticks since [`init`]: for timing without plugin markers
+/// (see [`ticks_to_instructions`]). Many short readings summed keep each reading's error of
+/// one tick, so sum ticks, not rounded instruction counts.
+pub fn ticks() -> u64 {
+    now_ticks()
+}
+
+/// Instructions in `ticks` SysTick ticks under `-icount shift=0`.
+pub fn ticks_to_instructions(ticks: u64) -> u64 {
+    ticks * 1_000_000_000 / u64::from(clock_hz())
+}
+
+/// Logs `insns[index] name: instructions`, the line `count.sh` pairs with the plugin's exact
+/// count of region `index` (from [`end`]).
+pub fn log(index: u32, name: &str, instructions: u32) {
+    defmt::info!("insns[{=u32}] {=str}: {=u32}", index, name, instructions);
+}
+
 /// Instructions per SysTick tick, rounded up: the resolution of [`measure`].
 pub fn resolution() -> u32 {
     let hz = clock_hz();
@@ -122,24 +140,57 @@ pub extern "C" fn bench_stop() {
     mark(2);
 }
 
-/// One measured region: the result of `f`, the region's index in the run (the plugin numbers
-/// regions the same way), and the instructions it took.
-fn region<R>(f: impl FnOnce() -> R) -> (R, u32, u32) {
-    let hz = u64::from(clock_hz());
+/// An open measured region: started by [`begin`], closed by [`end`]. For regions whose start
+/// and end are not in one closure, such as the stages of an analyzer's block seen through its
+/// probe.
+#[derive(Debug)]
+#[must_use = "a region that is never ended confuses the plugin's pairing"]
+pub struct Span {
+    index: u32,
+    t0: u64,
+}
+
+/// Opens a measured region: takes the next region index and starts the count. Everything
+/// until [`end`] is counted, by SysTick and, between the markers, by the plugin.
+#[inline(always)]
+pub fn begin() -> Span {
     let index = REGIONS.load(Ordering::Relaxed);
     REGIONS.store(index.wrapping_add(1), Ordering::Relaxed);
     let t0 = now_ticks();
     bench_start();
-    let result = core::hint::black_box(f());
+    Span { index, t0 }
+}
+
+/// Closes `span`: `(index, instructions)`, the region's index in the run and what it took
+/// (saturating at `u32::MAX`).
+#[inline(always)]
+pub fn end(span: Span) -> (u32, u32) {
+    let (index, instructions, _) = end_ticks(span);
+    (index, instructions)
+}
+
+/// [`end`], and the region's length in SysTick ticks.
+#[inline(always)]
+pub fn end_ticks(span: Span) -> (u32, u32, u64) {
     bench_stop();
     let t1 = now_ticks();
-    // 1 instruction = 1 ns of virtual time under -icount shift=0.
-    let instructions = (t1 - t0) * 1_000_000_000 / hz;
+    let ticks = t1 - span.t0;
+    let instructions = ticks_to_instructions(ticks);
     (
-        result,
-        index,
+        span.index,
         u32::try_from(instructions).unwrap_or(u32::MAX),
+        ticks,
     )
+}
+
+/// One measured region: the result of `f`, the region's index in the run (the plugin numbers
+/// regions the same way), and the instructions it took.
+fn region<R>(f: impl FnOnce() -> R) -> (R, u32, u32) {
+    clock_hz(); // fail before the region rather than inside it
+    let span = begin();
+    let result = core::hint::black_box(f());
+    let (index, instructions) = end(span);
+    (result, index, instructions)
 }
 
 /// Runs `f` and returns its result and the instructions it took (within [`resolution`];
@@ -163,7 +214,7 @@ pub fn measure(f: impl FnOnce()) -> u32 {
 /// the plugin's exact count.
 pub fn stage_value<R>(name: &str, f: impl FnOnce() -> R) -> (R, u32) {
     let (result, index, instructions) = region(f);
-    defmt::info!("insns[{=u32}] {=str}: {=u32}", index, name, instructions);
+    log(index, name, instructions);
     (result, instructions)
 }
 

@@ -4,8 +4,10 @@
 //!   markers for the exact-count QEMU plugin in `boards/tools/insn-count`.
 //! * [`checks`]: a tally of named self-checks and the report that ends the run.
 //! * [`exit`]: the exit codes the host sees, the panic handler and the HardFault handler.
-//! * [`stages`]: the stages timed on every board.
-//! * [`selfcheck`]: the firmware self-check (for now a windowed test tone through microfft).
+//! * [`probe`]: instructions per pipeline stage, through an analyzer's stage probe.
+//! * [`pump`]: the demo pump scenario through an analyzer path, timed.
+//! * [`stages`]: the bare transforms, and budget runs at other block lengths.
+//! * [`selfcheck`]: the firmware self-check: the pump scenario through f32/Q15/Q31.
 //! * [`stack`]: stack high-water mark, to see what a board has left of its RAM.
 //!
 //! Everything here assumes a single core and QEMU with semihosting enabled; the real boards
@@ -15,6 +17,8 @@
 pub mod checks;
 pub mod count;
 pub mod exit;
+pub mod probe;
+pub mod pump;
 pub mod selfcheck;
 pub mod stack;
 pub mod stages;

@@ -1,13 +1,24 @@
-//! What the analysis task does with a block, for now: counts to m/s^2, mean removed, the
-//! overall RMS, then the Hann window, microfft, and the strongest line with its
-//! amplitude-corrected level. This whole module is what `leakless::Analyzer` will replace.
+//! The analysis: `leakless::Analyzer` (f32, on the Cortex-M4F's FPU) over the blocks the
+//! sampler hands over, N = 1024, Hann, 50 % overlap, a linear average of 8 blocks; after each
+//! average, the strongest lines (tone finder, levels from the power in each main lobe) and
+//! the overall levels: acceleration RMS over all lines and velocity RMS 10-1000 Hz
+//! (`analysis::bands`, integrated line by line).
 
-use leakless::window::{Shape, Window};
-use microfft::Complex32;
+use leakless::analysis::bands::{band_rms, Band, Integration};
+use leakless::analysis::peaks::{strongest_tones, Tone, ToneSearch};
+use leakless::{
+    Analyzer, Averaging, Config, ConfigError, Correction, Scale, Shape, Spectrum, SpectrumInfo,
+    WhenDone, Window,
+};
 
 /// Block length.
 pub const N: usize = 1024;
-const BINS: usize = N / 2;
+/// Lines of the one-sided spectrum, `N/2 + 1`.
+pub const BINS: usize = N / 2 + 1;
+/// Blocks per linear average.
+pub const AVERAGES: u32 = 8;
+/// Lines reported per average.
+pub const TONES: usize = 3;
 
 /// Standard gravity, m/s^2 per g.
 pub const STANDARD_GRAVITY: f32 = 9.806_65;
@@ -15,54 +26,82 @@ pub const STANDARD_GRAVITY: f32 = 9.806_65;
 /// Hann, evaluated by the compiler; a `static` so the table stays in flash.
 static HANN: Window<N> = Window::new(Shape::Hann);
 
-/// What one block gave.
-#[derive(Clone, Copy, Debug, defmt::Format)]
+/// What one finished average gave.
+#[derive(Clone, Debug)]
 pub struct Summary {
-    /// Overall RMS of the block, m/s^2, mean removed.
-    pub rms: f32,
-    /// Line of the strongest component (DC excluded).
-    pub peak_line: u16,
-    /// Its frequency, Hz.
-    pub peak_hz: f32,
-    /// Its amplitude (0-peak), m/s^2, amplitude-corrected for the window.
-    pub peak_amplitude: f32,
+    /// Blocks in the average.
+    pub averages: u32,
+    /// Overall acceleration, m/s^2 rms, all lines but DC.
+    pub overall_rms: f32,
+    /// Velocity 10-1000 Hz, mm/s rms.
+    pub velocity_mm_s: f32,
+    /// The strongest lines, strongest first.
+    pub tones: heapless::Vec<Tone, TONES>,
 }
 
-/// Scales `counts` by `scale` (m/s^2 per count) into `work` with the mean removed, and
-/// returns the RMS.
-pub fn load(counts: &[i16; N], scale: f32, work: &mut [f32; N]) -> f32 {
-    let mut sum = 0i32;
-    for &c in counts {
-        sum += i32::from(c); // 1024 * 32768 fits in i32 with room to spare
-    }
-    let mean = sum as f32 / N as f32;
-    let mut square_sum = 0.0f32;
-    for (w, &c) in work.iter_mut().zip(counts) {
-        let x = (f32::from(c) - mean) * scale;
-        *w = x;
-        square_sum += x * x;
-    }
-    libm::sqrtf(square_sum / N as f32)
+/// The analyzer and the spectrum it is read into (both live in the task's static storage).
+pub struct Node {
+    analyzer: Analyzer<'static, N, BINS>,
+    spectrum: Spectrum<BINS>,
+    search: ToneSearch,
 }
 
-/// Windows `work` in place, transforms it, and finds the strongest line.
-pub fn spectrum_peak(work: &mut [f32; N], rms: f32, sample_rate_hz: f32) -> Summary {
-    for (x, w) in work.iter_mut().zip(HANN.table()) {
-        *x *= *w;
+impl Node {
+    /// An analyzer for counts of `m_s2_per_count` at `sample_rate_hz`.
+    pub fn new(sample_rate_hz: f32, m_s2_per_count: f32) -> Result<Self, ConfigError> {
+        let config = Config::new(sample_rate_hz)
+            .with_overlap_fraction(0.5)
+            .with_averaging(Averaging::Linear {
+                count: AVERAGES,
+                when_done: WhenDone::Restart,
+            })
+            .with_sensitivity(m_s2_per_count)
+            .with_full_scale(32_767.0) // the sensor's clip codes, in counts
+            .with_unit("m/s^2");
+        let analyzer = Analyzer::new(&HANN, config)?;
+        let info = SpectrumInfo {
+            sample_rate_hz,
+            block_len: N,
+            factors: *HANN.factors(),
+            unit: "m/s^2",
+            averages: 0,
+        };
+        let spectrum =
+            Spectrum::from_squares(&[0.0; BINS], 0.0, Scale::Power, Correction::Energy, info);
+        let search = ToneSearch::for_shape(Shape::Hann).ok_or(ConfigError::WindowParameter)?;
+        Ok(Self {
+            analyzer,
+            spectrum,
+            search,
+        })
     }
-    let spectrum: &[Complex32; BINS] = microfft::real::rfft_1024(work);
-    let power = |c: &Complex32| c.re * c.re + c.im * c.im;
-    let mut best = 1;
-    for k in 2..BINS {
-        if power(&spectrum[k]) > power(&spectrum[best]) {
-            best = k;
+
+    /// Forgets buffered samples and the running average (after a gap in the stream).
+    pub fn restart(&mut self) {
+        self.analyzer.reset();
+    }
+
+    /// Pushes counts; returns the summary when they complete an average.
+    pub fn push(&mut self, counts: &[i16]) -> Option<Summary> {
+        let report = self.analyzer.push_counts(counts);
+        if report.rejected > 0 {
+            defmt::warn!("{=u32} block(s) rejected (overload)", report.rejected);
         }
-    }
-    let sum = HANN.factors().sum as f32;
-    Summary {
-        rms,
-        peak_line: best as u16,
-        peak_hz: best as f32 * sample_rate_hz / N as f32,
-        peak_amplitude: 2.0 * libm::sqrtf(power(&spectrum[best])) / sum,
+        if report.averages_completed == 0 || !self.analyzer.is_done() {
+            return None;
+        }
+        self.analyzer
+            .read_into(&mut self.spectrum, Scale::Power, Correction::Energy);
+        let tones =
+            strongest_tones::<TONES, BINS>(&self.spectrum, &self.search).unwrap_or_default();
+        let overall_rms = libm::sqrtf(self.spectrum.values().iter().skip(1).sum());
+        let velocity = band_rms(&self.spectrum, Band::SEVERITY_10_1000_HZ, Integration::Once)
+            .unwrap_or(f32::NAN);
+        Some(Summary {
+            averages: self.spectrum.averages(),
+            overall_rms,
+            velocity_mm_s: velocity * 1000.0,
+            tones,
+        })
     }
 }

@@ -1,11 +1,12 @@
-//! Vibration sensor node: nRF52840 + IIS3DWB on SPI, one spectrum per 1024-sample block.
+//! Vibration sensor node: nRF52840 + IIS3DWB on SPI, averaged spectra with `leakless`.
 //!
 //! Two tasks share two block buffers through a zero-copy channel (a double buffer):
 //!
 //! * `sampler` waits for INT1 (FIFO at the watermark), drains the FIFO with one SPI burst
 //!   (EasyDMA), and writes one axis into the free block; a full block is handed over.
-//! * `analyse` converts the block, windows it, runs microfft and logs the strongest line.
-//!   It becomes `leakless::Analyzer` once the library has it.
+//! * `analyse` pushes each block into a `leakless::Analyzer` (N = 1024, Hann, 50 % overlap,
+//!   a linear average of 8) and, after every average, logs the strongest lines and the
+//!   overall acceleration and velocity (10-1000 Hz) RMS.
 //!
 //! If the analysis falls behind, the sampler keeps draining the FIFO and counts the blocks it
 //! could not hand over, so the sensor never overruns because of the analysis.
@@ -203,26 +204,45 @@ async fn sampler(
 #[embassy_executor::task]
 async fn analyse(mut rx: Receiver<'static, NoopRawMutex, Block>, full_scale: FullScale) {
     let scale = full_scale.g_per_lsb() * analysis::STANDARD_GRAVITY;
-    let mut work = [0.0f32; N];
+    let mut node = match analysis::Node::new(iis3dwb::SAMPLE_RATE_HZ, scale) {
+        Ok(node) => node,
+        Err(e) => defmt::panic!("analyzer: {}", e),
+    };
+    let mut expected = 0u32;
     loop {
         let block = rx.receive().await;
-        let t0 = DWT::cycle_count();
-        let rms = analysis::load(&block.samples, scale, &mut work);
         let (sequence, dropped, overruns) =
             (block.sequence, block.dropped_before, block.fifo_overruns);
-        rx.receive_done(); // the sampler may refill it while we transform the copy
-        let summary = analysis::spectrum_peak(&mut work, rms, iis3dwb::SAMPLE_RATE_HZ);
+        if dropped > 0 || sequence != expected {
+            // A gap: the overlap and the running average would mix two stretches of signal.
+            node.restart();
+        }
+        expected = sequence.wrapping_add(1);
+        let t0 = DWT::cycle_count();
+        let summary = node.push(&block.samples);
         let cycles = DWT::cycle_count().wrapping_sub(t0);
+        rx.receive_done();
+        let Some(summary) = summary else {
+            continue;
+        };
         defmt::info!(
-            "block {=u32}: {=f32} m/s^2 rms; peak {=f32} Hz (line {=u16}) {=f32} m/s^2 0-pk; {=u32} cycles; dropped {=u32}, FIFO overruns {=u32}",
+            "block {=u32}: average of {=u32}: {=f32} m/s^2 rms overall, velocity 10-1000 Hz {=f32} mm/s rms; {=u32} cycles for the last push; dropped {=u32}, FIFO overruns {=u32}",
             sequence,
-            summary.rms,
-            summary.peak_hz,
-            summary.peak_line,
-            summary.peak_amplitude,
+            summary.averages,
+            summary.overall_rms,
+            summary.velocity_mm_s,
             cycles,
             dropped,
             overruns
         );
+        for tone in summary.tones.iter() {
+            defmt::info!(
+                "  line {=u32}: {=f32} Hz, {=f32} m/s^2 rms ({=f32} dB re 1 m/s^2)",
+                tone.peak_line as u32,
+                tone.frequency_hz,
+                tone.rms,
+                tone.level_db
+            );
+        }
     }
 }
