@@ -303,60 +303,85 @@ macro_rules! real_fft_kernel {
             ]
         }
 
-        /// One radix-2 decimation-in-time stage of butterflies `half` apart, scaled down by
-        /// `shift` bits. Only ever the last complex stage (the split stage finds its own peak),
-        /// so it tracks none.
+        /// The radix-2 decimation-in-time stage, scaled down by `shift` bits. It only ever
+        /// runs as the last complex stage (when `log2(N/2)` is odd), so it is one group:
+        /// butterflies between point `k` and point `k + half`, `half = N/4`, with twiddle
+        /// `W^k = exp(-2 pi j k / (N/2))`, i.e. entry `2k` of the N-point table. The split
+        /// stage finds its own peak, so this stage tracks none.
         fn radix2_stage<const N: usize>(data: &mut [D; N], cos: &[D; N], half: usize, shift: i32) {
             let points = N / 2;
-            let span = 2 * half;
+            debug_assert_eq!(2 * half, points);
+            let (lo, hi) = data.split_at_mut(points);
             // k = 0 (twiddle 1) and k = half/2 (twiddle -j): exact sums, rounded to even.
-            let mut g = 0;
-            while g < points {
-                let (i, j) = (2 * g, 2 * (g + half));
-                let (ar, ai, br, bi) = (
-                    data[i] as W,
-                    data[i + 1] as W,
-                    data[j] as W,
-                    data[j + 1] as W,
-                );
-                store(&mut data[i], scale_exact(ar + br, shift));
-                store(&mut data[i + 1], scale_exact(ai + bi, shift));
-                store(&mut data[j], scale_exact(ar - br, shift));
-                store(&mut data[j + 1], scale_exact(ai - bi, shift));
-                let (i, j) = (i + half, j + half);
-                let (ar, ai, br, bi) = (
-                    data[i] as W,
-                    data[i + 1] as W,
-                    data[j] as W,
-                    data[j + 1] as W,
-                );
-                // (-j) b = (bi, -br)
-                store(&mut data[i], scale_exact(ar + bi, shift));
-                store(&mut data[i + 1], scale_exact(ai - br, shift));
-                store(&mut data[j], scale_exact(ar - bi, shift));
-                store(&mut data[j + 1], scale_exact(ai + br, shift));
-                g += span;
-            }
-            // The other twiddles: w = cos - j sin of 2 pi k / span, read from the N-point table.
-            let stride = N / span;
+            radix2_exact(&mut lo[..2], &mut hi[..2], shift, false);
+            radix2_exact(
+                &mut lo[half..half + 2],
+                &mut hi[half..half + 2],
+                shift,
+                true,
+            );
+            // The other twiddles: w = cos - j sin of 2 pi k / (N/2), i.e. cos[2k] and
+            // cos[2k + N/4] (cos(x + pi/2) = -sin(x)).
             let out_shift = (FRAC as i32 - 1 + shift) as u32;
+            let q = N / 4;
+            radix2_twiddled(
+                &mut lo[2..half],
+                &mut hi[2..half],
+                &cos[2..half],
+                &cos[q + 2..q + half],
+                out_shift,
+            );
+            radix2_twiddled(
+                &mut lo[half + 2..],
+                &mut hi[half + 2..],
+                &cos[half + 2..points],
+                &cos[q + half + 2..q + points],
+                out_shift,
+            );
+        }
+
+        /// One radix-2 butterfly with twiddle 1 (`minus_j` false) or -j, exact sums rounded
+        /// half to even by `shift`.
+        #[inline(always)]
+        fn radix2_exact(a: &mut [D], b: &mut [D], shift: i32, minus_j: bool) {
+            if let ([a0, a1], [b0, b1]) = (a, b) {
+                let (ar, ai) = (*a0 as W, *a1 as W);
+                // (-j) b = (bi, -br)
+                let (br, bi) = if minus_j {
+                    (*b1 as W, -(*b0 as W))
+                } else {
+                    (*b0 as W, *b1 as W)
+                };
+                store(a0, scale_exact(ar + br, shift));
+                store(a1, scale_exact(ai + bi, shift));
+                store(b0, scale_exact(ar - br, shift));
+                store(b1, scale_exact(ai - bi, shift));
+            }
+        }
+
+        /// Radix-2 butterflies between the points of `a` and `b` (re, im words), with the
+        /// twiddles `wr[2i] - j ...` read at every other entry of `wr` and `wi`; products at
+        /// `2^(FRAC-1)`, rounded once by `out_shift`.
+        #[inline(always)]
+        fn radix2_twiddled(a: &mut [D], b: &mut [D], wr: &[D], wi: &[D], out_shift: u32) {
             let rounding: W = 1 << (out_shift - 1);
-            for k in (1..half).filter(|&k| 2 * k != half) {
-                let wr = cos[k * stride] as W;
-                let wi = cos[k * stride + N / 4] as W; // cos(x + pi/2) = -sin(x)
-                let mut g = k;
-                while g < points {
-                    let (i, j) = (2 * g, 2 * (g + half));
-                    let (br, bi) = (data[j] as W, data[j + 1] as W);
+            let twiddles = wr.chunks_exact(2).zip(wi.chunks_exact(2));
+            for ((a, b), (wr, wi)) in a
+                .chunks_exact_mut(2)
+                .zip(b.chunks_exact_mut(2))
+                .zip(twiddles)
+            {
+                if let ([a0, a1], [b0, b1]) = (a, b) {
+                    let (wr, wi) = (wr[0] as W, wi[0] as W);
+                    let (br, bi) = (*b0 as W, *b1 as W);
                     let pr = (br * wr - bi * wi) >> 1;
                     let pi = (br * wi + bi * wr) >> 1;
-                    let ar = ((data[i] as W) << (FRAC - 1)) + rounding;
-                    let ai = ((data[i + 1] as W) << (FRAC - 1)) + rounding;
-                    store(&mut data[i], (ar + pr) >> out_shift);
-                    store(&mut data[i + 1], (ai + pi) >> out_shift);
-                    store(&mut data[j], (ar - pr) >> out_shift);
-                    store(&mut data[j + 1], (ai - pi) >> out_shift);
-                    g += span;
+                    let ar = ((*a0 as W) << (FRAC - 1)) + rounding;
+                    let ai = ((*a1 as W) << (FRAC - 1)) + rounding;
+                    store(a0, (ar + pr) >> out_shift);
+                    store(a1, (ai + pi) >> out_shift);
+                    store(b0, (ar - pr) >> out_shift);
+                    store(b1, (ai - pi) >> out_shift);
                 }
             }
         }
@@ -371,18 +396,30 @@ macro_rules! real_fft_kernel {
         /// Being the last stage, it is worth running twice: once to find the peak of its
         /// exact outputs, once to store them with the smallest shift that fits. The output
         /// then uses the full word instead of the worst-case headroom of a stage, which is
-        /// up to one more bit of resolution for the spectrum.
+        /// up to one more bit of resolution for the spectrum. The first pass needs only
+        /// `|E| + |W O|` per component: the outputs are `E +- W O`, and
+        /// `max(|e + q|, |e - q|) = |e| + |q|` exactly.
         fn split<const N: usize>(data: &mut [D; N], cos: &[D; N]) -> i32 {
             let points = N / 2;
             let mid = points; // word index of complex point N/4
+            let q = N / 4;
             let (r0, i0) = (data[0] as W, data[1] as W);
             let (rm, im) = (data[mid] as W, data[mid + 1] as W);
             // X[0] = Re Z0 + Im Z0, X[N/2] = Re Z0 - Im Z0, X[N/4] = conj Z[N/4]: exact.
             let exact = [r0 + i0, r0 - i0, rm, -im];
             let mut peak = exact.iter().map(|v| v.unsigned_abs()).max().unwrap_or(0) << (FRAC - 1);
-            for k in 1..points / 2 {
-                for v in split_pair(data, cos, k) {
-                    peak = peak.max(v.unsigned_abs());
+            // Z[k] for k = 1..N/4 ascending, Z[N/2 - k] descending, W^k = cos[k] + j cos[k + N/4].
+            let twiddles = cos[1..q].iter().zip(&cos[q + 1..2 * q]);
+            for ((a, b), (&wr, &wi)) in data[2..points]
+                .chunks_exact(2)
+                .zip(data[points + 2..].rchunks_exact(2))
+                .zip(twiddles.clone())
+            {
+                if let ([ar, ai], [br, bi]) = (a, b) {
+                    let [er, ei, qr, qi] = split_terms(*ar, *ai, *br, *bi, wr, wi);
+                    let re = er.unsigned_abs() + qr.unsigned_abs();
+                    let im = ei.unsigned_abs() + qi.unsigned_abs();
+                    peak = peak.max(re.max(im));
                 }
             }
             // Smallest shift with |X| * 2^-shift <= MAX; outputs are at 2^(FRAC-1) here.
@@ -395,39 +432,40 @@ macro_rules! real_fft_kernel {
             }
             let out_shift = (FRAC as i32 - 1 + shift) as u32;
             let rounding: W = 1 << (out_shift - 1);
-            for k in 1..points / 2 {
-                let (a, b) = (2 * k, 2 * (points - k));
-                let out = split_pair(data, cos, k);
-                for (slot, v) in [a, a + 1, b, b + 1].into_iter().zip(out) {
-                    store(&mut data[slot], (v + rounding) >> out_shift);
+            let (lo, hi) = data.split_at_mut(points);
+            for ((a, b), (&wr, &wi)) in lo[2..]
+                .chunks_exact_mut(2)
+                .zip(hi[2..].rchunks_exact_mut(2))
+                .zip(twiddles)
+            {
+                if let ([ar, ai], [br, bi]) = (a, b) {
+                    let [er, ei, qr, qi] = split_terms(*ar, *ai, *br, *bi, wr, wi);
+                    // Im X[N/2-k] = -(Im 2E - Im W 2O) / 2
+                    let out = [er + qr, ei + qi, er - qr, qi - ei];
+                    for (slot, v) in [ar, ai, br, bi].into_iter().zip(out) {
+                        store(slot, (v + rounding) >> out_shift);
+                    }
                 }
             }
             shift
         }
 
-        /// `X[k]` and `X[N/2 - k]` (re, im, re, im) at the scale `2^(FRAC-1)`, from the words
-        /// of `Z[k]` and `Z[N/2 - k]`, for `0 < k < N/4`.
+        /// `2E` and `W 2O` (re, im, re, im) of one split pair at the scale `2^(FRAC-2)`, from
+        /// the words of `A = Z[k]`, `B = Z[N/2 - k]` and the twiddle `W^k = wr + j wi`, for
+        /// `0 < k < N/4`; the pair's outputs are `X[k] = (2E + W 2O) / 2` and
+        /// `X[N/2 - k] = conj(2E - W 2O) / 2`, here at `2^(FRAC-1)`.
         ///
-        /// 2E and 2O are exact in `W`; X = (2E + W 2O) / 2, with W 2O formed at 2^(FRAC-2)
-        /// from products shifted separately (see the bounds in the module doc).
+        /// 2E and 2O are exact in `W`; W 2O is formed from products shifted separately (see
+        /// the bounds in the module doc).
         #[inline(always)]
-        fn split_pair<const N: usize>(data: &[D; N], cos: &[D; N], k: usize) -> [W; 4] {
-            let points = N / 2;
-            let (a, b) = (2 * k, 2 * (points - k));
-            let (ar, ai, br, bi) = (
-                data[a] as W,
-                data[a + 1] as W,
-                data[b] as W,
-                data[b + 1] as W,
-            );
+        fn split_terms(ar: D, ai: D, br: D, bi: D, wr: D, wi: D) -> [W; 4] {
+            let (ar, ai, br, bi) = (ar as W, ai as W, br as W, bi as W);
             let (er, ei) = ((ar + br) << (FRAC - 2), (ai - bi) << (FRAC - 2));
             let (or, oi) = (ai + bi, br - ar);
-            let wr = cos[k] as W;
-            let wi = cos[k + N / 4] as W; // cos(x + pi/2) = -sin(x)
+            let (wr, wi) = (wr as W, wi as W); // wi = cos(x + pi/2) = -sin(x)
             let qr = ((or * wr) >> 2) - ((oi * wi) >> 2);
             let qi = ((or * wi) >> 2) + ((oi * wr) >> 2);
-            // Im X[N/2-k] = -(Im 2E - Im W 2O) / 2
-            [er + qr, ei + qi, er - qr, qi - ei]
+            [er, ei, qr, qi]
         }
     };
 }
