@@ -175,30 +175,33 @@ macro_rules! real_fft_kernel {
 
         /// The first two radix-2 stages (twiddles 1 and -j), exact in `W`, then one rounding
         /// by `shift` (negative: exact left shift). Returns the output peak.
+        ///
+        /// On groups of four points `z0..z3` this is the twiddle-free radix-4 butterfly on
+        /// `(z0, z2, z1, z3)`. Its peak is taken before the rounding: `scale_exact` is odd and
+        /// nondecreasing, so the largest stored magnitude is `scale_exact` of the largest
+        /// exact one.
         fn first_stage<const N: usize>(data: &mut [D; N], shift: i32) -> UW {
-            let mut peak = 0;
+            if shift <= 0 {
+                let up = (-shift) as u32;
+                first_stage_with(data, |v| v << up)
+            } else {
+                first_stage_with(data, |v| scale_exact(v, shift))
+            }
+        }
+
+        #[inline(always)]
+        fn first_stage_with<const N: usize>(data: &mut [D; N], scale: impl Fn(W) -> W) -> UW {
+            let mut peak: UW = 0;
             for g in data.chunks_exact_mut(8) {
                 let z = |i: usize| (g[2 * i] as W, g[2 * i + 1] as W);
                 let (z0, z1, z2, z3) = (z(0), z(1), z(2), z(3));
-                let a0 = (z0.0 + z1.0, z0.1 + z1.1);
-                let a1 = (z0.0 - z1.0, z0.1 - z1.1);
-                let a2 = (z2.0 + z3.0, z2.1 + z3.1);
-                let a3 = (z2.0 - z3.0, z2.1 - z3.1);
-                let out = [
-                    a0.0 + a2.0,
-                    a0.1 + a2.1,
-                    a1.0 + a3.1,
-                    a1.1 - a3.0,
-                    a0.0 - a2.0,
-                    a0.1 - a2.1,
-                    a1.0 - a3.1,
-                    a1.1 + a3.0,
-                ];
+                peak = peak.max(radix4_peak(z0, z2, z1, z3));
+                let out = radix4_combine(z0, z2, z1, z3);
                 for (slot, v) in g.iter_mut().zip(out) {
-                    peak = peak.max(store(slot, scale_exact(v, shift)));
+                    store(slot, scale(v));
                 }
             }
-            peak
+            scale(peak as W).unsigned_abs()
         }
 
         /// One radix-4 decimation-in-time stage: four length-`quarter` sub-spectra per group,
@@ -225,14 +228,18 @@ macro_rules! real_fft_kernel {
                 let d1 = (group[2 * q] as W, group[2 * q + 1] as W);
                 let d3 = (group[3 * q] as W, group[3 * q + 1] as W);
                 let y = radix4_combine(d0, d1, d2, d3);
+                // exact: scale_exact is odd and nondecreasing (see first_stage)
+                peak =
+                    peak.max(scale_exact(radix4_peak(d0, d1, d2, d3) as W, shift).unsigned_abs());
                 for (slot, v) in [0, 1, q, q + 1, 2 * q, 2 * q + 1, 3 * q, 3 * q + 1]
                     .into_iter()
                     .zip(y)
                 {
-                    peak = peak.max(store(&mut group[slot], scale_exact(v, shift)));
+                    store(&mut group[slot], scale_exact(v, shift));
                 }
             }
             // Other k: products kept at 2^(FRAC-2), summed, rounded once.
+            let mut wide_peak: UW = 0;
             let stride = N / span;
             let out_shift = (FRAC as i32 - 2 + shift) as u32;
             let rounding: W = 1 << (out_shift - 1);
@@ -253,6 +260,7 @@ macro_rules! real_fft_kernel {
                     let t1 = rotate((group[a + 2 * q] as W, group[a + 2 * q + 1] as W), w1);
                     let t3 = rotate((group[a + 3 * q] as W, group[a + 3 * q + 1] as W), w3);
                     let y = radix4_combine(d0, t1, t2, t3);
+                    wide_peak = wide_peak.max(radix4_peak(d0, t1, t2, t3));
                     let slots = [
                         a,
                         a + 1,
@@ -264,21 +272,37 @@ macro_rules! real_fft_kernel {
                         a + 3 * q + 1,
                     ];
                     for (slot, v) in slots.into_iter().zip(y) {
-                        peak = peak.max(store(&mut group[slot], v >> out_shift));
+                        store(&mut group[slot], v >> out_shift);
                     }
                 }
             }
-            peak
+            // The stored words are `floor(v / 2^out_shift)`: at most `ceil(max |v| / 2^out_shift)`
+            // in magnitude, which is the exact peak or one above it.
+            peak.max((wide_peak + ((1 << out_shift) - 1)) >> out_shift)
+        }
+
+        /// The largest `|component|` of the outputs of [`radix4_combine`] on the same
+        /// inputs, from its intermediate sums: the outputs are `s0 +- s2` and `s1 -+ j s3`
+        /// per component, and `max(|a + b|, |a - b|) = |a| + |b|`, so four sums of
+        /// magnitudes give the exact maximum of the eight outputs.
+        #[inline(always)]
+        fn radix4_peak(t0: (W, W), t1: (W, W), t2: (W, W), t3: (W, W)) -> UW {
+            let m = |a: W, b: W| a.unsigned_abs() + b.unsigned_abs();
+            let s0 = (t0.0 + t2.0, t0.1 + t2.1);
+            let s1 = (t0.0 - t2.0, t0.1 - t2.1);
+            let s2 = (t1.0 + t3.0, t1.1 + t3.1);
+            let s3 = (t1.0 - t3.0, t1.1 - t3.1);
+            m(s0.0, s2.0)
+                .max(m(s0.1, s2.1))
+                .max(m(s1.0, s3.1))
+                .max(m(s1.1, s3.0))
         }
 
         /// `b * w` at the scale `2^(FRAC-2)` (each product shifted before the sum, which keeps
         /// the sum inside `W`; see the module doc).
         #[inline(always)]
         fn rotate(b: (W, W), w: (W, W)) -> (W, W) {
-            (
-                ((b.0 * w.0) >> 2) - ((b.1 * w.1) >> 2),
-                ((b.0 * w.1) >> 2) + ((b.1 * w.0) >> 2),
-            )
+            ((b.0 * w.0 - b.1 * w.1) >> 2, (b.0 * w.1 + b.1 * w.0) >> 2)
         }
 
         /// The radix-4 butterfly on the twiddled sub-spectra `t0..t3` (residue order): returns
