@@ -156,15 +156,27 @@ macro_rules! real_fft_kernel {
         }
 
         /// Reorders the `points` complex words (re, im pairs) into bit-reversed order.
+        ///
+        /// It walks the even indices `i` only: with `j = rev(i)` (below `points / 2`),
+        /// `rev(i + 1) = j + points / 2`, so both pairs are swapped from one reversed
+        /// increment. Each pair `(a, rev(a))` with `a < rev(a)` is swapped once, from the
+        /// even one of `a` and `a - 1`.
         fn bit_reverse<const N: usize>(data: &mut [D; N], points: usize) {
+            let half = points / 2;
+            let mut swap = |a: usize, b: usize| {
+                data.swap(2 * a, 2 * b);
+                data.swap(2 * a + 1, 2 * b + 1);
+            };
             let mut j = 0;
-            for i in 0..points - 1 {
+            for i in (0..points).step_by(2) {
                 if i < j {
-                    data.swap(2 * i, 2 * j);
-                    data.swap(2 * i + 1, 2 * j + 1);
+                    swap(i, j);
                 }
-                // increment j in reversed bit order
-                let mut bit = points >> 1;
+                if i + 1 < j + half {
+                    swap(i + 1, j + half);
+                }
+                // increment j in reversed bit order, over the bits below `half`
+                let mut bit = half >> 1;
                 while j & bit != 0 {
                     j ^= bit;
                     bit >>= 1;
