@@ -434,7 +434,9 @@ macro_rules! real_fft_kernel {
         /// then uses the full word instead of the worst-case headroom of a stage, which is
         /// up to one more bit of resolution for the spectrum. The first pass needs only
         /// `|E| + |W O|` per component: the outputs are `E +- W O`, and
-        /// `max(|e + q|, |e - q|) = |e| + |q|` exactly.
+        /// `max(|e + q|, |e - q|) = |e| + |q|` exactly. It takes that peak as a bound at
+        /// most 2 above it, in units of `2^-(FRAC-1)` of an unshifted output, so the shift is
+        /// the smallest that fits except for a peak that close to a threshold.
         fn split<const N: usize>(data: &mut [D; N], cos: &[D; N]) -> i32 {
             let points = N / 2;
             let mid = points; // word index of complex point N/4
@@ -453,11 +455,16 @@ macro_rules! real_fft_kernel {
             {
                 if let ([ar, ai], [br, bi]) = (a, b) {
                     let [er, ei, qr, qi] = split_terms(*ar, *ai, *br, *bi, wr, wi);
-                    let re = er.unsigned_abs() + qr.unsigned_abs();
-                    let im = ei.unsigned_abs() + qi.unsigned_abs();
+                    let fold = |v: W| (v ^ (v >> (<W>::BITS - 1))) as UW;
+                    let re = fold(er) + fold(qr);
+                    let im = fold(ei) + fold(qi);
                     peak = peak.max(re.max(im));
                 }
             }
+            // The folded magnitudes (`v ^ (v >> sign)`, one instruction less than `|v|` on
+            // Cortex-M0) are `|v|` or `|v| - 1`: two more make a bound, at most 2 above the
+            // exact peak (in units of 2^-(FRAC-1) output LSB).
+            let peak = peak + 2;
             // Smallest shift with |X| * 2^-shift <= MAX; outputs are at 2^(FRAC-1) here.
             let mut shift = -MAX_UP_SHIFT;
             while shift < 2 && peak > (MAX as UW) << (FRAC as i32 - 1 + shift) as u32 {
