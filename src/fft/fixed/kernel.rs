@@ -256,7 +256,9 @@ macro_rules! real_fft_kernel {
             let out_shift = (FRAC as i32 - 2 + shift) as u32;
             let rounding: W = 1 << (out_shift - 1);
             for k in 1..quarter {
-                let twiddle = |i: usize| (cos[i] as W, cos[i + N / 4] as W);
+                // (the masks only spare the bounds checks: every index is below N)
+                let twiddle =
+                    |i: usize| (cos[i & (N - 1)] as W, cos[(i + N / 4) & (N - 1)] as W);
                 let (w1, w2, w3) = (
                     twiddle(k * stride),
                     twiddle(2 * k * stride),
