@@ -190,24 +190,29 @@ macro_rules! real_fft_kernel {
         ///
         /// On groups of four points `z0..z3` this is the twiddle-free radix-4 butterfly on
         /// `(z0, z2, z1, z3)`. Its peak is taken before the rounding: `scale_exact` is odd and
-        /// nondecreasing, so the largest stored magnitude is `scale_exact` of the largest
-        /// exact one.
+        /// nondecreasing, so the largest stored magnitude is at most `scale_exact` of a bound
+        /// on the largest exact one (and equal to it for the exact maximum, taken when the
+        /// block is shifted up).
         fn first_stage<const N: usize>(data: &mut [D; N], shift: i32) -> UW {
             if shift <= 0 {
                 let up = (-shift) as u32;
-                first_stage_with(data, |v| v << up)
+                first_stage_with(data, |v| v << up, true)
             } else {
-                first_stage_with(data, |v| scale_exact(v, shift))
+                first_stage_with(data, |v| scale_exact(v, shift), false)
             }
         }
 
         #[inline(always)]
-        fn first_stage_with<const N: usize>(data: &mut [D; N], scale: impl Fn(W) -> W) -> UW {
+        fn first_stage_with<const N: usize>(
+            data: &mut [D; N],
+            scale: impl Fn(W) -> W,
+            exact: bool,
+        ) -> UW {
             let mut peak: UW = 0;
             for g in data.chunks_exact_mut(8) {
                 let z = |i: usize| (g[2 * i] as W, g[2 * i + 1] as W);
                 let (z0, z1, z2, z3) = (z(0), z(1), z(2), z(3));
-                peak = peak.max(radix4_peak(z0, z2, z1, z3));
+                peak = peak.max(radix4_peak(z0, z2, z1, z3, exact));
                 let out = radix4_combine(z0, z2, z1, z3);
                 for (slot, v) in g.iter_mut().zip(out) {
                     store(slot, scale(v));
@@ -240,9 +245,10 @@ macro_rules! real_fft_kernel {
                 let d1 = (group[2 * q] as W, group[2 * q + 1] as W);
                 let d3 = (group[3 * q] as W, group[3 * q + 1] as W);
                 let y = radix4_combine(d0, d1, d2, d3);
-                // exact: scale_exact is odd and nondecreasing (see first_stage)
-                peak =
-                    peak.max(scale_exact(radix4_peak(d0, d1, d2, d3) as W, shift).unsigned_abs());
+                // scale_exact is odd and nondecreasing (see first_stage)
+                peak = peak.max(
+                    scale_exact(radix4_peak(d0, d1, d2, d3, shift <= 0) as W, shift).unsigned_abs(),
+                );
                 for (slot, v) in [0, 1, q, q + 1, 2 * q, 2 * q + 1, 3 * q, 3 * q + 1]
                     .into_iter()
                     .zip(y)
@@ -257,8 +263,7 @@ macro_rules! real_fft_kernel {
             let rounding: W = 1 << (out_shift - 1);
             for k in 1..quarter {
                 // (the masks only spare the bounds checks: every index is below N)
-                let twiddle =
-                    |i: usize| (cos[i & (N - 1)] as W, cos[(i + N / 4) & (N - 1)] as W);
+                let twiddle = |i: usize| (cos[i & (N - 1)] as W, cos[(i + N / 4) & (N - 1)] as W);
                 let (w1, w2, w3) = (
                     twiddle(k * stride),
                     twiddle(2 * k * stride),
@@ -274,7 +279,7 @@ macro_rules! real_fft_kernel {
                     let t1 = rotate((group[a + 2 * q] as W, group[a + 2 * q + 1] as W), w1);
                     let t3 = rotate((group[a + 3 * q] as W, group[a + 3 * q + 1] as W), w3);
                     let y = radix4_combine(d0, t1, t2, t3);
-                    wide_peak = wide_peak.max(radix4_peak(d0, t1, t2, t3));
+                    wide_peak = wide_peak.max(radix4_peak(d0, t1, t2, t3, false));
                     let slots = [
                         a,
                         a + 1,
@@ -290,8 +295,9 @@ macro_rules! real_fft_kernel {
                     }
                 }
             }
-            // The stored words are `floor(v / 2^out_shift)`: at most `ceil(max |v| / 2^out_shift)`
-            // in magnitude, which is the exact peak or one above it.
+            // `wide_peak` bounds `max |v|` from above by at most 2, and the stored words are
+            // `floor(v / 2^out_shift)`: at most `ceil(max |v| / 2^out_shift)` in magnitude.
+            // With `out_shift >= 5` this bound is the exact peak or one above it.
             peak.max((wide_peak + ((1 << out_shift) - 1)) >> out_shift)
         }
 
@@ -299,17 +305,34 @@ macro_rules! real_fft_kernel {
         /// inputs, from its intermediate sums: the outputs are `s0 +- s2` and `s1 -+ j s3`
         /// per component, and `max(|a + b|, |a - b|) = |a| + |b|`, so four sums of
         /// magnitudes give the exact maximum of the eight outputs.
+        ///
+        /// Unless `exact`, the magnitudes are folded, `v ^ (v >> sign)` (`|v|` or `|v| - 1`,
+        /// one instruction less on Cortex-M0), and the result is a bound at most 2 above
+        /// the maximum. That is below one output LSB wherever the outputs are then shifted
+        /// down; the callers that shift up (a normalisation) ask for the exact maximum.
         #[inline(always)]
-        fn radix4_peak(t0: (W, W), t1: (W, W), t2: (W, W), t3: (W, W)) -> UW {
-            let m = |a: W, b: W| a.unsigned_abs() + b.unsigned_abs();
+        fn radix4_peak(t0: (W, W), t1: (W, W), t2: (W, W), t3: (W, W), exact: bool) -> UW {
+            let fold = |v: W| (v ^ (v >> (<W>::BITS - 1))) as UW;
+            let m = |a: W, b: W| {
+                if exact {
+                    a.unsigned_abs() + b.unsigned_abs()
+                } else {
+                    fold(a) + fold(b)
+                }
+            };
             let s0 = (t0.0 + t2.0, t0.1 + t2.1);
             let s1 = (t0.0 - t2.0, t0.1 - t2.1);
             let s2 = (t1.0 + t3.0, t1.1 + t3.1);
             let s3 = (t1.0 - t3.0, t1.1 - t3.1);
-            m(s0.0, s2.0)
+            let max = m(s0.0, s2.0)
                 .max(m(s0.1, s2.1))
                 .max(m(s1.0, s3.1))
-                .max(m(s1.1, s3.0))
+                .max(m(s1.1, s3.0));
+            if exact {
+                max
+            } else {
+                max + 2
+            }
         }
 
         /// `b * w` at the scale `2^(FRAC-2)` (each product shifted before the sum, which keeps
