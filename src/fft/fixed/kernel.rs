@@ -20,17 +20,24 @@
 //!   complex magnitude `|b| |w| <= sqrt(2) 2^FRAC max|b|`, and it is formed at a scale where it
 //!   and the other terms fit: radix-2 `(a << (FRAC-1)) + (p >> 1) < 1.21 * 2^(2 FRAC)`;
 //!   radix-4 `(a << (FRAC-2)) + three (p >> 2) < 1.31 * 2^(2 FRAC)`; split
-//!   `(2E << (FRAC-2)) + (each product >> 2) < 2.42 * 2^(2 FRAC - 1)`.
+//!   `(2E << (FRAC-2)) + (each product >> 2) < 2.42 * 2^(2 FRAC - 1)`. In the radix-2 and
+//!   radix-4 stages `b` is a data word (`|b| <= 2^FRAC` per component), so the sum of two
+//!   products is itself below `sqrt(2) (1 + 2^-15) 2^(2 FRAC) < 2^(2 FRAC + 1)` and is formed
+//!   before its one shift; only the split stage shifts each product before the sum.
 //! * Outputs: a radix-2 output component is at most `|a| + |w b| <= P (1 + sqrt(2) |w|)`,
 //!   and `|w| <= 1 + 2^-15` after rounding, so the growth is below `GROWTH = 2.41426`; a
 //!   radix-4 output is at most `P (1 + 3 sqrt(2) |w|)`, below `GROWTH4 = 5.2429`. The split
 //!   stage has the radix-2 bound (`|E| <= P` per component, `|W O| <= sqrt(2) P |w|`). A stage
 //!   therefore shifts by the smallest `s` with `P * growth <= MAX * 2^s`: at most 2 (radix-2)
 //!   or 3 (radix-4) for any input, and negative, a normalisation up, when the data is small.
+//!   `P` need not be exact, only never below the peak: the twiddled radix-4 butterflies
+//!   report a bound at most one LSB above it (see `radix4_peak`), which changes a shift only
+//!   for a peak within one LSB of a threshold.
 //! * The first stage adds four words exactly, so its outputs are at most `4 P`, and its shift
 //!   is chosen from that exact bound; it too may be negative to normalise a quiet block up.
-//! * The split stage, being last, is computed twice: the first pass finds the exact peak of
-//!   its outputs, the second stores them with the smallest shift that fits.
+//! * The split stage, being last, is computed twice: the first pass finds the peak of its
+//!   outputs (exactly but for 2 units of `2^-(FRAC-1)`, always from above), the second
+//!   stores them with the smallest shift that fits.
 //!
 //! # Rounding
 //!
@@ -102,10 +109,11 @@ macro_rules! real_fft_kernel {
 
         /// Stores a value the bounds above keep inside `D`, and returns its magnitude.
         ///
-        /// The stages track the exact maximum of these. An OR of the magnitudes would be half
-        /// the work on Cortex-M0 but bounds the peak only to within a factor of 2; that lost
-        /// bit of headroom was measured to cost 1 to 3 dB and broke the small-tone target at
-        /// N = 64, so it is not done.
+        /// The stages do not take their peaks from these: `radix4_peak` and the split stage
+        /// get the largest magnitude of a butterfly's outputs from fewer terms (`|a| + |b|`
+        /// for the outputs `a +- b`). An OR of the magnitudes would be cheaper still but bounds
+        /// the peak only to within a factor of 2; that lost bit of headroom was measured to
+        /// cost 1 to 3 dB and broke the small-tone target at N = 64, so it is not done.
         #[inline(always)]
         fn store(slot: &mut D, v: W) -> UW {
             debug_assert!(v >= <D>::MIN as W && v <= MAX, "stage bound violated: {v}");
