@@ -277,30 +277,29 @@ macro_rules! real_fft_kernel {
                     twiddle(2 * k * stride),
                     twiddle(3 * k * stride),
                 );
+                let a = 2 * k;
                 for group in data[..2 * points].chunks_exact_mut(2 * span) {
-                    let a = 2 * k;
+                    // the four quarters, in storage order: D0, D2, D1, D3
+                    let (g0, rest) = group.split_at_mut(q);
+                    let (g1, rest) = rest.split_at_mut(q);
+                    let (g2, g3) = rest.split_at_mut(q);
                     let d0 = (
-                        ((group[a] as W) << (FRAC - 2)) + rounding,
-                        ((group[a + 1] as W) << (FRAC - 2)) + rounding,
+                        ((g0[a] as W) << (FRAC - 2)) + rounding,
+                        ((g0[a + 1] as W) << (FRAC - 2)) + rounding,
                     );
-                    let t2 = rotate((group[a + q] as W, group[a + q + 1] as W), w2);
-                    let t1 = rotate((group[a + 2 * q] as W, group[a + 2 * q + 1] as W), w1);
-                    let t3 = rotate((group[a + 3 * q] as W, group[a + 3 * q + 1] as W), w3);
+                    let t2 = rotate((g1[a] as W, g1[a + 1] as W), w2);
+                    let t1 = rotate((g2[a] as W, g2[a + 1] as W), w1);
+                    let t3 = rotate((g3[a] as W, g3[a + 1] as W), w3);
                     let y = radix4_combine(d0, t1, t2, t3);
                     wide_peak = wide_peak.max(radix4_peak(d0, t1, t2, t3, false));
-                    let slots = [
-                        a,
-                        a + 1,
-                        a + q,
-                        a + q + 1,
-                        a + 2 * q,
-                        a + 2 * q + 1,
-                        a + 3 * q,
-                        a + 3 * q + 1,
-                    ];
-                    for (slot, v) in slots.into_iter().zip(y) {
-                        store(&mut group[slot], v >> out_shift);
-                    }
+                    store(&mut g0[a], y[0] >> out_shift);
+                    store(&mut g0[a + 1], y[1] >> out_shift);
+                    store(&mut g1[a], y[2] >> out_shift);
+                    store(&mut g1[a + 1], y[3] >> out_shift);
+                    store(&mut g2[a], y[4] >> out_shift);
+                    store(&mut g2[a + 1], y[5] >> out_shift);
+                    store(&mut g3[a], y[6] >> out_shift);
+                    store(&mut g3[a + 1], y[7] >> out_shift);
                 }
             }
             // `wide_peak` bounds `max |v|` from above by at most 2, and the stored words are
