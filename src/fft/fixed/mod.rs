@@ -55,24 +55,26 @@
 //!
 //! No division, no 64-bit arithmetic in the Q15 path, no `unsafe`, no float. Flash: one
 //! `N`-entry cosine table per size used (2 N bytes for Q15, 4 N for Q31). RAM: the caller's
-//! buffer only. Instructions for one Q15 transform (full-scale noise), counted exactly by a
+//! buffer only. Instructions for one Q15 transform of full-scale noise, counted exactly by a
 //! QEMU 7.2 TCG plugin between two marker calls, release build (`opt-level = 3`, fat LTO):
 //!
 //! | N | Cortex-M0 (`microbit`, thumbv6m) | Cortex-M4 (`mps2-an386`, thumbv7em) |
 //! |---|---|---|
-//! | 256 | 36,900 | 25,200 |
-//! | 1024 | 172,000 | 121,300 |
-//! | 4096 | 784,500 | 540,700 |
+//! | 256 | 36,400 | 24,900 |
+//! | 1024 | 170,800 | 117,400 |
+//! | 4096 | 773,400 | 532,300 |
 //!
-//! At `opt-level = "s"`: about 254,000 (M0) and 173,000 (M4) at N = 1024. Of the M0 count at
-//! N = 1024, about 36 % is the twiddled radix-4 butterflies (about 183 instructions each,
-//! some 75 of them register spills and reloads: the M0 has 8 low registers), 20 % the two
-//! passes of the split stage, 7 % the radix-2 stage, 6 % the bit reversal, the rest the
-//! fused first stage and the twiddle-free radix-4 butterflies. That is still well over the
-//! budget hoped for on Cortex-M0 (about 110,000). Code size of that instantiation: about
-//! 7.1 KB of Thumb code at `opt-level = 3` (the compiler unrolls the split stage's
-//! loops), 3.9 KB at `"s"`, plus the 2 KB table. On a 2020s x86-64 host (best of 12 runs on
-//! a busy 2-core machine): about 7 us (Q15) and 8.5 us (Q31) at N = 1024.
+//! A quiet block (N = 1024 at -42 dBFS) takes about 2 % less. At `opt-level = "s"`: about
+//! 208,000 (M0) and 142,000 (M4) at N = 1024. Of the M0 count at N = 1024, about 36 % is
+//! the twiddled radix-4 butterflies (about 180 instructions each, some 75 of them `ldr` /
+//! `str` to the stack: the M0 has 8 low registers for twiddles, offsets and intermediates),
+//! 21 % the two passes of the split stage, 8 % the radix-2 stage, 6 % the bit reversal, 5 %
+//! the input's peak, the rest the fused first stage and the twiddle-free radix-4
+//! butterflies. That is still well over the budget hoped for on Cortex-M0 (about 110,000).
+//! Code size of that instantiation: about 7.1 KB of Thumb code at `opt-level = 3` (the
+//! compiler unrolls the split and radix-2 loops), 3.9 KB at `"s"`, plus the 2 KB table. On
+//! a 2020s x86-64 host (best of 12 runs on a busy 2-core machine): about 7 us (Q15) and
+//! 8.5 us (Q31) at N = 1024.
 //!
 //! # Example
 //!
