@@ -20,17 +20,24 @@
 //!   complex magnitude `|b| |w| <= sqrt(2) 2^FRAC max|b|`, and it is formed at a scale where it
 //!   and the other terms fit: radix-2 `(a << (FRAC-1)) + (p >> 1) < 1.21 * 2^(2 FRAC)`;
 //!   radix-4 `(a << (FRAC-2)) + three (p >> 2) < 1.31 * 2^(2 FRAC)`; split
-//!   `(2E << (FRAC-2)) + (each product >> 2) < 2.42 * 2^(2 FRAC - 1)`.
+//!   `(2E << (FRAC-2)) + (each product >> 2) < 2.42 * 2^(2 FRAC - 1)`. In the radix-2 and
+//!   radix-4 stages `b` is a data word (`|b| <= 2^FRAC` per component), so the sum of two
+//!   products is itself below `sqrt(2) (1 + 2^-15) 2^(2 FRAC) < 2^(2 FRAC + 1)` and is formed
+//!   before its one shift; only the split stage shifts each product before the sum.
 //! * Outputs: a radix-2 output component is at most `|a| + |w b| <= P (1 + sqrt(2) |w|)`,
 //!   and `|w| <= 1 + 2^-15` after rounding, so the growth is below `GROWTH = 2.41426`; a
 //!   radix-4 output is at most `P (1 + 3 sqrt(2) |w|)`, below `GROWTH4 = 5.2429`. The split
 //!   stage has the radix-2 bound (`|E| <= P` per component, `|W O| <= sqrt(2) P |w|`). A stage
 //!   therefore shifts by the smallest `s` with `P * growth <= MAX * 2^s`: at most 2 (radix-2)
 //!   or 3 (radix-4) for any input, and negative, a normalisation up, when the data is small.
+//!   `P` need not be exact, only never below the peak: the twiddled radix-4 butterflies
+//!   report a bound at most one LSB above it (see `radix4_peak`), which changes a shift only
+//!   for a peak within one LSB of a threshold.
 //! * The first stage adds four words exactly, so its outputs are at most `4 P`, and its shift
 //!   is chosen from that exact bound; it too may be negative to normalise a quiet block up.
-//! * The split stage, being last, is computed twice: the first pass finds the exact peak of
-//!   its outputs, the second stores them with the smallest shift that fits.
+//! * The split stage, being last, is computed twice: the first pass finds the peak of its
+//!   outputs (exactly but for 2 units of `2^-(FRAC-1)`, always from above), the second
+//!   stores them with the smallest shift that fits.
 //!
 //! # Rounding
 //!
@@ -102,10 +109,11 @@ macro_rules! real_fft_kernel {
 
         /// Stores a value the bounds above keep inside `D`, and returns its magnitude.
         ///
-        /// The stages track the exact maximum of these. An OR of the magnitudes would be half
-        /// the work on Cortex-M0 but bounds the peak only to within a factor of 2; that lost
-        /// bit of headroom was measured to cost 1 to 3 dB and broke the small-tone target at
-        /// N = 64, so it is not done.
+        /// The stages do not take their peaks from these: `radix4_peak` and the split stage
+        /// get the largest magnitude of a butterfly's outputs from fewer terms (`|a| + |b|`
+        /// for the outputs `a +- b`). An OR of the magnitudes would be cheaper still but bounds
+        /// the peak only to within a factor of 2; that lost bit of headroom was measured to
+        /// cost 1 to 3 dB and broke the small-tone target at N = 64, so it is not done.
         #[inline(always)]
         fn store(slot: &mut D, v: W) -> UW {
             debug_assert!(v >= <D>::MIN as W && v <= MAX, "stage bound violated: {v}");
@@ -156,15 +164,27 @@ macro_rules! real_fft_kernel {
         }
 
         /// Reorders the `points` complex words (re, im pairs) into bit-reversed order.
+        ///
+        /// It walks the even indices `i` only: with `j = rev(i)` (below `points / 2`),
+        /// `rev(i + 1) = j + points / 2`, so both pairs are swapped from one reversed
+        /// increment. Each pair `(a, rev(a))` with `a < rev(a)` is swapped once, from the
+        /// even one of `a` and `a - 1`.
         fn bit_reverse<const N: usize>(data: &mut [D; N], points: usize) {
+            let half = points / 2;
+            let mut swap = |a: usize, b: usize| {
+                data.swap(2 * a, 2 * b);
+                data.swap(2 * a + 1, 2 * b + 1);
+            };
             let mut j = 0;
-            for i in 0..points - 1 {
+            for i in (0..points).step_by(2) {
                 if i < j {
-                    data.swap(2 * i, 2 * j);
-                    data.swap(2 * i + 1, 2 * j + 1);
+                    swap(i, j);
                 }
-                // increment j in reversed bit order
-                let mut bit = points >> 1;
+                if i + 1 < j + half {
+                    swap(i + 1, j + half);
+                }
+                // increment j in reversed bit order, over the bits below `half`
+                let mut bit = half >> 1;
                 while j & bit != 0 {
                     j ^= bit;
                     bit >>= 1;
@@ -175,30 +195,38 @@ macro_rules! real_fft_kernel {
 
         /// The first two radix-2 stages (twiddles 1 and -j), exact in `W`, then one rounding
         /// by `shift` (negative: exact left shift). Returns the output peak.
+        ///
+        /// On groups of four points `z0..z3` this is the twiddle-free radix-4 butterfly on
+        /// `(z0, z2, z1, z3)`. Its peak is taken before the rounding: `scale_exact` is odd and
+        /// nondecreasing, so the largest stored magnitude is at most `scale_exact` of a bound
+        /// on the largest exact one (and equal to it for the exact maximum, taken when the
+        /// block is shifted up).
         fn first_stage<const N: usize>(data: &mut [D; N], shift: i32) -> UW {
-            let mut peak = 0;
+            if shift <= 0 {
+                let up = (-shift) as u32;
+                first_stage_with(data, |v| v << up, true)
+            } else {
+                first_stage_with(data, |v| scale_exact(v, shift), false)
+            }
+        }
+
+        #[inline(always)]
+        fn first_stage_with<const N: usize>(
+            data: &mut [D; N],
+            scale: impl Fn(W) -> W,
+            exact: bool,
+        ) -> UW {
+            let mut peak: UW = 0;
             for g in data.chunks_exact_mut(8) {
                 let z = |i: usize| (g[2 * i] as W, g[2 * i + 1] as W);
                 let (z0, z1, z2, z3) = (z(0), z(1), z(2), z(3));
-                let a0 = (z0.0 + z1.0, z0.1 + z1.1);
-                let a1 = (z0.0 - z1.0, z0.1 - z1.1);
-                let a2 = (z2.0 + z3.0, z2.1 + z3.1);
-                let a3 = (z2.0 - z3.0, z2.1 - z3.1);
-                let out = [
-                    a0.0 + a2.0,
-                    a0.1 + a2.1,
-                    a1.0 + a3.1,
-                    a1.1 - a3.0,
-                    a0.0 - a2.0,
-                    a0.1 - a2.1,
-                    a1.0 - a3.1,
-                    a1.1 + a3.0,
-                ];
+                peak = peak.max(radix4_peak(z0, z2, z1, z3, exact));
+                let out = radix4_combine(z0, z2, z1, z3);
                 for (slot, v) in g.iter_mut().zip(out) {
-                    peak = peak.max(store(slot, scale_exact(v, shift)));
+                    store(slot, scale(v));
                 }
             }
-            peak
+            scale(peak as W).unsigned_abs()
         }
 
         /// One radix-4 decimation-in-time stage: four length-`quarter` sub-spectra per group,
@@ -225,60 +253,100 @@ macro_rules! real_fft_kernel {
                 let d1 = (group[2 * q] as W, group[2 * q + 1] as W);
                 let d3 = (group[3 * q] as W, group[3 * q + 1] as W);
                 let y = radix4_combine(d0, d1, d2, d3);
+                // scale_exact is odd and nondecreasing (see first_stage)
+                peak = peak.max(
+                    scale_exact(radix4_peak(d0, d1, d2, d3, shift <= 0) as W, shift).unsigned_abs(),
+                );
                 for (slot, v) in [0, 1, q, q + 1, 2 * q, 2 * q + 1, 3 * q, 3 * q + 1]
                     .into_iter()
                     .zip(y)
                 {
-                    peak = peak.max(store(&mut group[slot], scale_exact(v, shift)));
+                    store(&mut group[slot], scale_exact(v, shift));
                 }
             }
             // Other k: products kept at 2^(FRAC-2), summed, rounded once.
+            let mut wide_peak: UW = 0;
             let stride = N / span;
             let out_shift = (FRAC as i32 - 2 + shift) as u32;
             let rounding: W = 1 << (out_shift - 1);
             for k in 1..quarter {
-                let twiddle = |i: usize| (cos[i] as W, cos[i + N / 4] as W);
+                // (the masks only spare the bounds checks: every index is below N)
+                let twiddle = |i: usize| (cos[i & (N - 1)] as W, cos[(i + N / 4) & (N - 1)] as W);
                 let (w1, w2, w3) = (
                     twiddle(k * stride),
                     twiddle(2 * k * stride),
                     twiddle(3 * k * stride),
                 );
+                let a = 2 * k;
                 for group in data[..2 * points].chunks_exact_mut(2 * span) {
-                    let a = 2 * k;
+                    // the four quarters, in storage order: D0, D2, D1, D3
+                    let (g0, rest) = group.split_at_mut(q);
+                    let (g1, rest) = rest.split_at_mut(q);
+                    let (g2, g3) = rest.split_at_mut(q);
                     let d0 = (
-                        ((group[a] as W) << (FRAC - 2)) + rounding,
-                        ((group[a + 1] as W) << (FRAC - 2)) + rounding,
+                        ((g0[a] as W) << (FRAC - 2)) + rounding,
+                        ((g0[a + 1] as W) << (FRAC - 2)) + rounding,
                     );
-                    let t2 = rotate((group[a + q] as W, group[a + q + 1] as W), w2);
-                    let t1 = rotate((group[a + 2 * q] as W, group[a + 2 * q + 1] as W), w1);
-                    let t3 = rotate((group[a + 3 * q] as W, group[a + 3 * q + 1] as W), w3);
+                    let t2 = rotate((g1[a] as W, g1[a + 1] as W), w2);
+                    let t1 = rotate((g2[a] as W, g2[a + 1] as W), w1);
+                    let t3 = rotate((g3[a] as W, g3[a + 1] as W), w3);
                     let y = radix4_combine(d0, t1, t2, t3);
-                    let slots = [
-                        a,
-                        a + 1,
-                        a + q,
-                        a + q + 1,
-                        a + 2 * q,
-                        a + 2 * q + 1,
-                        a + 3 * q,
-                        a + 3 * q + 1,
-                    ];
-                    for (slot, v) in slots.into_iter().zip(y) {
-                        peak = peak.max(store(&mut group[slot], v >> out_shift));
-                    }
+                    wide_peak = wide_peak.max(radix4_peak(d0, t1, t2, t3, false));
+                    store(&mut g0[a], y[0] >> out_shift);
+                    store(&mut g0[a + 1], y[1] >> out_shift);
+                    store(&mut g1[a], y[2] >> out_shift);
+                    store(&mut g1[a + 1], y[3] >> out_shift);
+                    store(&mut g2[a], y[4] >> out_shift);
+                    store(&mut g2[a + 1], y[5] >> out_shift);
+                    store(&mut g3[a], y[6] >> out_shift);
+                    store(&mut g3[a + 1], y[7] >> out_shift);
                 }
             }
-            peak
+            // `wide_peak` bounds `max |v|` from above by at most 2, and the stored words are
+            // `floor(v / 2^out_shift)`: at most `ceil(max |v| / 2^out_shift)` in magnitude.
+            // With `out_shift >= 5` this bound is the exact peak or one above it.
+            peak.max((wide_peak + ((1 << out_shift) - 1)) >> out_shift)
+        }
+
+        /// The largest `|component|` of the outputs of [`radix4_combine`] on the same
+        /// inputs, from its intermediate sums: the outputs are `s0 +- s2` and `s1 -+ j s3`
+        /// per component, and `max(|a + b|, |a - b|) = |a| + |b|`, so four sums of
+        /// magnitudes give the exact maximum of the eight outputs.
+        ///
+        /// Unless `exact`, the magnitudes are folded, `v ^ (v >> sign)` (`|v|` or `|v| - 1`,
+        /// one instruction less on Cortex-M0), and the result is a bound at most 2 above
+        /// the maximum. That is below one output LSB wherever the outputs are then shifted
+        /// down; the callers that shift up (a normalisation) ask for the exact maximum.
+        #[inline(always)]
+        fn radix4_peak(t0: (W, W), t1: (W, W), t2: (W, W), t3: (W, W), exact: bool) -> UW {
+            let fold = |v: W| (v ^ (v >> (<W>::BITS - 1))) as UW;
+            let m = |a: W, b: W| {
+                if exact {
+                    a.unsigned_abs() + b.unsigned_abs()
+                } else {
+                    fold(a) + fold(b)
+                }
+            };
+            let s0 = (t0.0 + t2.0, t0.1 + t2.1);
+            let s1 = (t0.0 - t2.0, t0.1 - t2.1);
+            let s2 = (t1.0 + t3.0, t1.1 + t3.1);
+            let s3 = (t1.0 - t3.0, t1.1 - t3.1);
+            let max = m(s0.0, s2.0)
+                .max(m(s0.1, s2.1))
+                .max(m(s1.0, s3.1))
+                .max(m(s1.1, s3.0));
+            if exact {
+                max
+            } else {
+                max + 2
+            }
         }
 
         /// `b * w` at the scale `2^(FRAC-2)` (each product shifted before the sum, which keeps
         /// the sum inside `W`; see the module doc).
         #[inline(always)]
         fn rotate(b: (W, W), w: (W, W)) -> (W, W) {
-            (
-                ((b.0 * w.0) >> 2) - ((b.1 * w.1) >> 2),
-                ((b.0 * w.1) >> 2) + ((b.1 * w.0) >> 2),
-            )
+            ((b.0 * w.0 - b.1 * w.1) >> 2, (b.0 * w.1 + b.1 * w.0) >> 2)
         }
 
         /// The radix-4 butterfly on the twiddled sub-spectra `t0..t3` (residue order): returns
@@ -303,60 +371,85 @@ macro_rules! real_fft_kernel {
             ]
         }
 
-        /// One radix-2 decimation-in-time stage of butterflies `half` apart, scaled down by
-        /// `shift` bits. Only ever the last complex stage (the split stage finds its own peak),
-        /// so it tracks none.
+        /// The radix-2 decimation-in-time stage, scaled down by `shift` bits. It only ever
+        /// runs as the last complex stage (when `log2(N/2)` is odd), so it is one group:
+        /// butterflies between point `k` and point `k + half`, `half = N/4`, with twiddle
+        /// `W^k = exp(-2 pi j k / (N/2))`, i.e. entry `2k` of the N-point table. The split
+        /// stage finds its own peak, so this stage tracks none.
         fn radix2_stage<const N: usize>(data: &mut [D; N], cos: &[D; N], half: usize, shift: i32) {
             let points = N / 2;
-            let span = 2 * half;
+            debug_assert_eq!(2 * half, points);
+            let (lo, hi) = data.split_at_mut(points);
             // k = 0 (twiddle 1) and k = half/2 (twiddle -j): exact sums, rounded to even.
-            let mut g = 0;
-            while g < points {
-                let (i, j) = (2 * g, 2 * (g + half));
-                let (ar, ai, br, bi) = (
-                    data[i] as W,
-                    data[i + 1] as W,
-                    data[j] as W,
-                    data[j + 1] as W,
-                );
-                store(&mut data[i], scale_exact(ar + br, shift));
-                store(&mut data[i + 1], scale_exact(ai + bi, shift));
-                store(&mut data[j], scale_exact(ar - br, shift));
-                store(&mut data[j + 1], scale_exact(ai - bi, shift));
-                let (i, j) = (i + half, j + half);
-                let (ar, ai, br, bi) = (
-                    data[i] as W,
-                    data[i + 1] as W,
-                    data[j] as W,
-                    data[j + 1] as W,
-                );
-                // (-j) b = (bi, -br)
-                store(&mut data[i], scale_exact(ar + bi, shift));
-                store(&mut data[i + 1], scale_exact(ai - br, shift));
-                store(&mut data[j], scale_exact(ar - bi, shift));
-                store(&mut data[j + 1], scale_exact(ai + br, shift));
-                g += span;
-            }
-            // The other twiddles: w = cos - j sin of 2 pi k / span, read from the N-point table.
-            let stride = N / span;
+            radix2_exact(&mut lo[..2], &mut hi[..2], shift, false);
+            radix2_exact(
+                &mut lo[half..half + 2],
+                &mut hi[half..half + 2],
+                shift,
+                true,
+            );
+            // The other twiddles: w = cos - j sin of 2 pi k / (N/2), i.e. cos[2k] and
+            // cos[2k + N/4] (cos(x + pi/2) = -sin(x)).
             let out_shift = (FRAC as i32 - 1 + shift) as u32;
+            let q = N / 4;
+            radix2_twiddled(
+                &mut lo[2..half],
+                &mut hi[2..half],
+                &cos[2..half],
+                &cos[q + 2..q + half],
+                out_shift,
+            );
+            radix2_twiddled(
+                &mut lo[half + 2..],
+                &mut hi[half + 2..],
+                &cos[half + 2..points],
+                &cos[q + half + 2..q + points],
+                out_shift,
+            );
+        }
+
+        /// One radix-2 butterfly with twiddle 1 (`minus_j` false) or -j, exact sums rounded
+        /// half to even by `shift`.
+        #[inline(always)]
+        fn radix2_exact(a: &mut [D], b: &mut [D], shift: i32, minus_j: bool) {
+            if let ([a0, a1], [b0, b1]) = (a, b) {
+                let (ar, ai) = (*a0 as W, *a1 as W);
+                // (-j) b = (bi, -br)
+                let (br, bi) = if minus_j {
+                    (*b1 as W, -(*b0 as W))
+                } else {
+                    (*b0 as W, *b1 as W)
+                };
+                store(a0, scale_exact(ar + br, shift));
+                store(a1, scale_exact(ai + bi, shift));
+                store(b0, scale_exact(ar - br, shift));
+                store(b1, scale_exact(ai - bi, shift));
+            }
+        }
+
+        /// Radix-2 butterflies between the points of `a` and `b` (re, im words), with the
+        /// twiddles `wr[2i] - j ...` read at every other entry of `wr` and `wi`; products at
+        /// `2^(FRAC-1)`, rounded once by `out_shift`.
+        #[inline(always)]
+        fn radix2_twiddled(a: &mut [D], b: &mut [D], wr: &[D], wi: &[D], out_shift: u32) {
             let rounding: W = 1 << (out_shift - 1);
-            for k in (1..half).filter(|&k| 2 * k != half) {
-                let wr = cos[k * stride] as W;
-                let wi = cos[k * stride + N / 4] as W; // cos(x + pi/2) = -sin(x)
-                let mut g = k;
-                while g < points {
-                    let (i, j) = (2 * g, 2 * (g + half));
-                    let (br, bi) = (data[j] as W, data[j + 1] as W);
+            let twiddles = wr.chunks_exact(2).zip(wi.chunks_exact(2));
+            for ((a, b), (wr, wi)) in a
+                .chunks_exact_mut(2)
+                .zip(b.chunks_exact_mut(2))
+                .zip(twiddles)
+            {
+                if let ([a0, a1], [b0, b1]) = (a, b) {
+                    let (wr, wi) = (wr[0] as W, wi[0] as W);
+                    let (br, bi) = (*b0 as W, *b1 as W);
                     let pr = (br * wr - bi * wi) >> 1;
                     let pi = (br * wi + bi * wr) >> 1;
-                    let ar = ((data[i] as W) << (FRAC - 1)) + rounding;
-                    let ai = ((data[i + 1] as W) << (FRAC - 1)) + rounding;
-                    store(&mut data[i], (ar + pr) >> out_shift);
-                    store(&mut data[i + 1], (ai + pi) >> out_shift);
-                    store(&mut data[j], (ar - pr) >> out_shift);
-                    store(&mut data[j + 1], (ai - pi) >> out_shift);
-                    g += span;
+                    let ar = ((*a0 as W) << (FRAC - 1)) + rounding;
+                    let ai = ((*a1 as W) << (FRAC - 1)) + rounding;
+                    store(a0, (ar + pr) >> out_shift);
+                    store(a1, (ai + pi) >> out_shift);
+                    store(b0, (ar - pr) >> out_shift);
+                    store(b1, (ai - pi) >> out_shift);
                 }
             }
         }
@@ -371,20 +464,39 @@ macro_rules! real_fft_kernel {
         /// Being the last stage, it is worth running twice: once to find the peak of its
         /// exact outputs, once to store them with the smallest shift that fits. The output
         /// then uses the full word instead of the worst-case headroom of a stage, which is
-        /// up to one more bit of resolution for the spectrum.
+        /// up to one more bit of resolution for the spectrum. The first pass needs only
+        /// `|E| + |W O|` per component: the outputs are `E +- W O`, and
+        /// `max(|e + q|, |e - q|) = |e| + |q|` exactly. It takes that peak as a bound at
+        /// most 2 above it, in units of `2^-(FRAC-1)` of an unshifted output, so the shift is
+        /// the smallest that fits except for a peak that close to a threshold.
         fn split<const N: usize>(data: &mut [D; N], cos: &[D; N]) -> i32 {
             let points = N / 2;
             let mid = points; // word index of complex point N/4
+            let q = N / 4;
             let (r0, i0) = (data[0] as W, data[1] as W);
             let (rm, im) = (data[mid] as W, data[mid + 1] as W);
             // X[0] = Re Z0 + Im Z0, X[N/2] = Re Z0 - Im Z0, X[N/4] = conj Z[N/4]: exact.
             let exact = [r0 + i0, r0 - i0, rm, -im];
             let mut peak = exact.iter().map(|v| v.unsigned_abs()).max().unwrap_or(0) << (FRAC - 1);
-            for k in 1..points / 2 {
-                for v in split_pair(data, cos, k) {
-                    peak = peak.max(v.unsigned_abs());
+            // Z[k] for k = 1..N/4 ascending, Z[N/2 - k] descending, W^k = cos[k] + j cos[k + N/4].
+            let twiddles = cos[1..q].iter().zip(&cos[q + 1..2 * q]);
+            for ((a, b), (&wr, &wi)) in data[2..points]
+                .chunks_exact(2)
+                .zip(data[points + 2..].rchunks_exact(2))
+                .zip(twiddles.clone())
+            {
+                if let ([ar, ai], [br, bi]) = (a, b) {
+                    let [er, ei, qr, qi] = split_terms(*ar, *ai, *br, *bi, wr, wi);
+                    let fold = |v: W| (v ^ (v >> (<W>::BITS - 1))) as UW;
+                    let re = fold(er) + fold(qr);
+                    let im = fold(ei) + fold(qi);
+                    peak = peak.max(re.max(im));
                 }
             }
+            // The folded magnitudes (`v ^ (v >> sign)`, one instruction less than `|v|` on
+            // Cortex-M0) are `|v|` or `|v| - 1`: two more make a bound, at most 2 above the
+            // exact peak (in units of 2^-(FRAC-1) output LSB).
+            let peak = peak + 2;
             // Smallest shift with |X| * 2^-shift <= MAX; outputs are at 2^(FRAC-1) here.
             let mut shift = -MAX_UP_SHIFT;
             while shift < 2 && peak > (MAX as UW) << (FRAC as i32 - 1 + shift) as u32 {
@@ -395,39 +507,40 @@ macro_rules! real_fft_kernel {
             }
             let out_shift = (FRAC as i32 - 1 + shift) as u32;
             let rounding: W = 1 << (out_shift - 1);
-            for k in 1..points / 2 {
-                let (a, b) = (2 * k, 2 * (points - k));
-                let out = split_pair(data, cos, k);
-                for (slot, v) in [a, a + 1, b, b + 1].into_iter().zip(out) {
-                    store(&mut data[slot], (v + rounding) >> out_shift);
+            let (lo, hi) = data.split_at_mut(points);
+            for ((a, b), (&wr, &wi)) in lo[2..]
+                .chunks_exact_mut(2)
+                .zip(hi[2..].rchunks_exact_mut(2))
+                .zip(twiddles)
+            {
+                if let ([ar, ai], [br, bi]) = (a, b) {
+                    let [er, ei, qr, qi] = split_terms(*ar, *ai, *br, *bi, wr, wi);
+                    // Im X[N/2-k] = -(Im 2E - Im W 2O) / 2
+                    let out = [er + qr, ei + qi, er - qr, qi - ei];
+                    for (slot, v) in [ar, ai, br, bi].into_iter().zip(out) {
+                        store(slot, (v + rounding) >> out_shift);
+                    }
                 }
             }
             shift
         }
 
-        /// `X[k]` and `X[N/2 - k]` (re, im, re, im) at the scale `2^(FRAC-1)`, from the words
-        /// of `Z[k]` and `Z[N/2 - k]`, for `0 < k < N/4`.
+        /// `2E` and `W 2O` (re, im, re, im) of one split pair at the scale `2^(FRAC-2)`, from
+        /// the words of `A = Z[k]`, `B = Z[N/2 - k]` and the twiddle `W^k = wr + j wi`, for
+        /// `0 < k < N/4`; the pair's outputs are `X[k] = (2E + W 2O) / 2` and
+        /// `X[N/2 - k] = conj(2E - W 2O) / 2`, here at `2^(FRAC-1)`.
         ///
-        /// 2E and 2O are exact in `W`; X = (2E + W 2O) / 2, with W 2O formed at 2^(FRAC-2)
-        /// from products shifted separately (see the bounds in the module doc).
+        /// 2E and 2O are exact in `W`; W 2O is formed from products shifted separately (see
+        /// the bounds in the module doc).
         #[inline(always)]
-        fn split_pair<const N: usize>(data: &[D; N], cos: &[D; N], k: usize) -> [W; 4] {
-            let points = N / 2;
-            let (a, b) = (2 * k, 2 * (points - k));
-            let (ar, ai, br, bi) = (
-                data[a] as W,
-                data[a + 1] as W,
-                data[b] as W,
-                data[b + 1] as W,
-            );
+        fn split_terms(ar: D, ai: D, br: D, bi: D, wr: D, wi: D) -> [W; 4] {
+            let (ar, ai, br, bi) = (ar as W, ai as W, br as W, bi as W);
             let (er, ei) = ((ar + br) << (FRAC - 2), (ai - bi) << (FRAC - 2));
             let (or, oi) = (ai + bi, br - ar);
-            let wr = cos[k] as W;
-            let wi = cos[k + N / 4] as W; // cos(x + pi/2) = -sin(x)
+            let (wr, wi) = (wr as W, wi as W); // wi = cos(x + pi/2) = -sin(x)
             let qr = ((or * wr) >> 2) - ((oi * wi) >> 2);
             let qi = ((or * wi) >> 2) + ((oi * wr) >> 2);
-            // Im X[N/2-k] = -(Im 2E - Im W 2O) / 2
-            [er + qr, ei + qi, er - qr, qi - ei]
+            [er, ei, qr, qi]
         }
     };
 }
