@@ -15,9 +15,14 @@
 
 use core::f64::consts::{FRAC_PI_2, LN_2, PI};
 
+/// The largest denominator [`cos_turns`] takes: its exact integer reduction needs `8 q` to
+/// fit a `u64`. ([`sin_turns`] takes a quarter of it.)
+pub const MAX_TURN_DENOMINATOR: u64 = 1 << 60;
+
 /// `cos(2*pi*p/q)`, with the reduction to the first octant done exactly in integers.
 ///
-/// `q` must be non-zero; `q = 0` returns NaN rather than panicking.
+/// `q` must be in `1 ..= MAX_TURN_DENOMINATOR`; outside that it returns NaN rather than
+/// panicking or wrapping.
 ///
 /// ```
 /// use leakless::math::cos_turns;
@@ -26,7 +31,7 @@ use core::f64::consts::{FRAC_PI_2, LN_2, PI};
 /// assert!((cos_turns(1, 6) - 0.5).abs() < 1e-15);
 /// ```
 pub const fn cos_turns(p: u64, q: u64) -> f64 {
-    if q == 0 {
+    if q == 0 || q > MAX_TURN_DENOMINATOR {
         return f64::NAN;
     }
     // Work in eighths of a turn: angle = 2*pi * r / q, r in [0, q).
@@ -40,7 +45,8 @@ pub const fn cos_turns(p: u64, q: u64) -> f64 {
     cos_first_quadrant(r, q)
 }
 
-/// `sin(2*pi*p/q)`, exact in the same way as [`cos_turns`].
+/// `sin(2*pi*p/q)`, exact in the same way as [`cos_turns`]; NaN unless
+/// `1 <= q <= MAX_TURN_DENOMINATOR / 4`.
 ///
 /// ```
 /// use leakless::math::sin_turns;
@@ -48,7 +54,7 @@ pub const fn cos_turns(p: u64, q: u64) -> f64 {
 /// assert_eq!(sin_turns(1, 2), 0.0);
 /// ```
 pub const fn sin_turns(p: u64, q: u64) -> f64 {
-    if q == 0 {
+    if q == 0 || q > MAX_TURN_DENOMINATOR / 4 {
         return f64::NAN;
     }
     // sin(a) = cos(a - pi/2) = cos(2*pi*(4p - q)/(4q)); keep the numerator non-negative.
@@ -370,6 +376,22 @@ mod tests {
                 assert!(worst_abs <= 2e-15, "{name} worst abs {worst_abs:e}");
             }
         }
+    }
+
+    #[test]
+    fn huge_denominators_give_nan_not_a_wrap() {
+        assert!(cos_turns(u64::MAX - 1, u64::MAX).is_nan());
+        assert!(sin_turns(1, u64::MAX / 2).is_nan());
+        assert!(cos_turns(1, 0).is_nan());
+        // The largest allowed ones still work: a quarter turn is exactly 0.
+        assert_eq!(
+            cos_turns(MAX_TURN_DENOMINATOR / 4, MAX_TURN_DENOMINATOR),
+            0.0
+        );
+        assert_eq!(
+            sin_turns(MAX_TURN_DENOMINATOR / 16, MAX_TURN_DENOMINATOR / 4),
+            1.0
+        );
     }
 
     #[test]

@@ -146,12 +146,26 @@ impl BearingGeometry {
             return Err(ConfigError::ShaftSpeed);
         }
         let orders = self.defect_orders();
-        Ok(DefectFrequencies {
+        let frequencies = DefectFrequencies {
             ftf_hz: orders.ftf * shaft_hz,
             bpfo_hz: orders.bpfo * shaft_hz,
             bpfi_hz: orders.bpfi * shaft_hz,
             bsf_hz: orders.bsf * shaft_hz,
-        })
+        };
+        // A finite but absurd speed (near f64::MAX) must not come back as infinite lines.
+        let all_finite = [
+            frequencies.ftf_hz,
+            frequencies.bpfo_hz,
+            frequencies.bpfi_hz,
+            frequencies.bsf_hz,
+        ]
+        .iter()
+        .all(|f| f.is_finite());
+        if all_finite {
+            Ok(frequencies)
+        } else {
+            Err(ConfigError::ShaftSpeed)
+        }
     }
 }
 
@@ -323,7 +337,7 @@ mod tests {
         assert!(BearingGeometry::new(1, 39.999, 40.0, 0.0).is_ok());
         assert!(BearingGeometry::new(8, 10.0, 40.0, 89.999).is_ok());
         let g = BearingGeometry::new(8, 10.0, 40.0, 0.0).unwrap();
-        for bad in [-1.0, f64::NAN, f64::INFINITY, f64::NEG_INFINITY] {
+        for bad in [-1.0, f64::NAN, f64::INFINITY, f64::NEG_INFINITY, f64::MAX] {
             assert_eq!(g.defect_frequencies(bad), Err(ShaftSpeed));
         }
     }

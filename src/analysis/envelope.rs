@@ -92,6 +92,9 @@ pub const LOW_PASS_PER_OUTPUT_RATE: f64 = 0.3;
 pub const MAX_DECIMATION: u32 = 256;
 /// How far the slowest pole decays before outputs count as settled: 1e-4 (80 dB).
 const SETTLED_FRACTION: f64 = 1e-4;
+/// The longest settling time a detector may have, in seconds: a band narrow enough to ring
+/// longer than this is refused rather than blanking its output for minutes after each start.
+pub const MAX_SETTLING_S: f64 = 60.0;
 /// Mean of `|cos|` over a period is `2 / pi`; the low-pass undoes it.
 const FULL_WAVE_MEAN: f64 = 2.0 / PI;
 
@@ -255,6 +258,9 @@ impl EnvelopeDetector {
     /// * [`ConfigError::SampleRate`]: `sample_rate_hz` not finite and > 0.
     /// * [`ConfigError::Frequency`]: not `0 < band_low_hz < band_high_hz < sample_rate_hz / 2`.
     /// * [`ConfigError::Decimation`]: `decimation` not in `1 ..= MAX_DECIMATION`.
+    /// * [`ConfigError::Frequency`] also when the band is so narrow (or so low) that the
+    ///   filters would take longer than [`MAX_SETTLING_S`] to settle: every start and every
+    ///   bad sample would blank the output for that long.
     pub fn new(
         sample_rate_hz: f32,
         band_low_hz: f32,
@@ -341,7 +347,11 @@ impl EnvelopeDetector {
         }
 
         let settling_s = -libm::log(SETTLED_FRACTION) / slowest_decay;
-        let settling_outputs = libm::ceil(settling_s * output_rate) as u32 + 1;
+        if settling_s.is_nan() || settling_s > MAX_SETTLING_S {
+            return Err(ConfigError::Frequency);
+        }
+        // At most 60 s at the input rate (<= 2^32 samples for any f32 rate below 71 MHz).
+        let settling_outputs = (libm::ceil(settling_s * output_rate) as u32).saturating_add(1);
         Ok(Self {
             band_pass,
             low_pass,
@@ -687,6 +697,9 @@ mod tests {
             (2e3, 12_800.0),
             (f32::NAN, 4e3),
             (2e3, f32::INFINITY),
+            // Rings for hours: refused rather than blanking the output that long.
+            (1e-30, 1e-29),
+            (1000.0, 1000.0001),
         ] {
             assert_eq!(
                 EnvelopeDetector::new(FS, low, high, 8).err(),

@@ -220,6 +220,27 @@ pub struct SpectrumInfo {
     pub averages: u32,
 }
 
+impl SpectrumInfo {
+    /// Whether this describes `BINS` one-sided lines that levels can be computed for: an even
+    /// block of at least 2 samples with `BINS = N/2 + 1`, a finite positive sample rate, and
+    /// window sums a correction can divide by (the test [`crate::Analyzer::new`] applies).
+    pub fn check<const BINS: usize>(&self) -> Result<(), ConfigError> {
+        if self.block_len < 2 || self.block_len % 2 != 0 || self.block_len / 2 + 1 != BINS {
+            return Err(ConfigError::BinCount {
+                bins: BINS,
+                block_len: self.block_len,
+            });
+        }
+        if !(self.sample_rate_hz.is_finite() && self.sample_rate_hz > 0.0) {
+            return Err(ConfigError::SampleRate);
+        }
+        if !(self.factors.coherent_gain > 1e-6 && self.factors.mean_square_gain > 1e-12) {
+            return Err(ConfigError::WindowParameter);
+        }
+        Ok(())
+    }
+}
+
 /// A one-sided spectrum of `BINS = N/2 + 1` lines (DC first, Nyquist last) that knows its
 /// scale, correction, bin width and unit.
 ///
@@ -264,15 +285,7 @@ impl<const BINS: usize> Spectrum<BINS> {
         correction: Correction,
         info: SpectrumInfo,
     ) -> Result<Self, ConfigError> {
-        if info.block_len % 2 != 0 || info.block_len / 2 + 1 != BINS {
-            return Err(ConfigError::BinCount {
-                bins: BINS,
-                block_len: info.block_len,
-            });
-        }
-        if !(info.sample_rate_hz.is_finite() && info.sample_rate_hz > 0.0) {
-            return Err(ConfigError::SampleRate);
-        }
+        info.check::<BINS>()?;
         Ok(Self {
             values,
             scale,
@@ -283,7 +296,8 @@ impl<const BINS: usize> Spectrum<BINS> {
 
     /// Builds a spectrum from accumulated squared magnitudes: `squares[k] = gain * |X[k]|^2`
     /// in engineering units^2 (what an analyzer accumulates). A zero gain (nothing
-    /// accumulated) gives zeros.
+    /// accumulated) gives zeros. If `info` cannot describe these lines (the checks of
+    /// [`Spectrum::new`] fail), every value is NaN: a visible flag, never plausible levels.
     pub fn from_squares(
         squares: &[f32; BINS],
         gain: f64,
@@ -326,7 +340,9 @@ impl<const BINS: usize> Spectrum<BINS> {
         self.scale = scale;
         self.correction = correction.effective(scale);
         self.info = info;
-        if gain > 0.0 && gain.is_finite() {
+        if info.check::<BINS>().is_err() {
+            self.values = [f32::NAN; BINS];
+        } else if gain > 0.0 && gain.is_finite() {
             for (value, square) in self.values.iter_mut().zip(squares) {
                 *value = square;
             }
@@ -476,6 +492,32 @@ mod tests {
             unit: "V",
             averages: 1,
         }
+    }
+
+    #[test]
+    fn inconsistent_info_is_refused_or_flagged() {
+        let hann: Window<1024> = Window::new(Shape::Hann);
+        let good = info(*hann.factors());
+        let short = SpectrumInfo {
+            block_len: 0,
+            ..good
+        };
+        assert!(Spectrum::<1>::new([0.0], Scale::Power, Correction::Energy, short).is_err());
+        let zero_window = SpectrumInfo {
+            factors: Factors::of_samples(&[0.0; 8]),
+            ..good
+        };
+        assert_eq!(
+            Spectrum::<513>::new([0.0; 513], Scale::Power, Correction::Energy, zero_window).err(),
+            Some(ConfigError::WindowParameter)
+        );
+        // from_squares cannot fail, so it flags: every value NaN, never plausible levels.
+        let odd = SpectrumInfo {
+            block_len: 7,
+            ..good
+        };
+        let s = Spectrum::<3>::from_squares(&[1.0; 3], 1.0, Scale::Rms, Correction::Energy, odd);
+        assert!(s.values().iter().all(|v| v.is_nan()));
     }
 
     // reference: scipy 1.17.1 periodogram, REFERENCES.md §2.2 example A (Hann, N = 1024,

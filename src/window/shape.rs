@@ -250,10 +250,14 @@ impl Shape {
         !matches!(self, Shape::Force { .. } | Shape::Exponential { .. })
     }
 
-    /// The window's value at sample `n` of `len`, in `f64`.
+    /// The window's value at sample `n` of `len`, in `f64` (0 for `n >= len`: outside the
+    /// window).
     ///
     /// This is the one definition of every shape: the f32 and Q15 tables both come from it.
     pub const fn sample(&self, symmetry: Symmetry, n: usize, len: usize) -> f64 {
+        if n >= len {
+            return 0.0;
+        }
         // L: the period of the cosine terms.
         let span = match symmetry {
             Symmetry::Periodic => len,
