@@ -271,7 +271,7 @@ pub fn check_resolved_1x<const B: usize>(
 pub fn q15_bounds<const B: usize>(float: &Spectrum<B>) -> (f32, f32) {
     let (mut signal, mut a_max) = (0.0f64, 0.0f64);
     for k in 0..B {
-        let ms = f64::from(float.line_mean_square(k).max(0.0));
+        let ms = f64::from(float.mean_square(k).unwrap_or(0.0).max(0.0));
         signal += ms;
         a_max = a_max.max(libm::sqrt(ms));
     }
