@@ -120,15 +120,17 @@ pub(crate) mod sealed {
         fn transform(block: &mut [Self::Word; N]) -> i32;
         /// The largest `|word|` of a transformed block.
         fn peak_word(block: &[Self::Word; N]) -> u64;
-        /// `re^2 + im^2` of every line, DC first.
-        fn line_powers(block: &[Self::Word; N]) -> impl Iterator<Item = u64> + '_;
+        /// `re^2 + im^2` of DC and of Nyquist.
+        fn edge_powers(block: &[Self::Word; N]) -> (u64, u64);
+        /// `re^2 + im^2` of the interior lines `1 .. N/2`, in order.
+        fn interior_powers(block: &[Self::Word; N]) -> impl Iterator<Item = u64> + '_;
     }
 }
 
 /// `(v + half) >> shift` rounding half to even (no bias on exact halves, which integer
 /// sums produce), or `v << -shift` for `shift <= 0`.
 macro_rules! fixed_kernel {
-    ($window:ident, $word:ty, $wide:ty, $frac:expr, $rfft:ident) => {
+    ($window:ident, $word:ty, $wide:ty, $square:ty, $frac:expr, $rfft:ident) => {
         impl<const N: usize> sealed::Kernel<N> for $window<N> {
             type Word = $word;
             const WORD_MAX: u64 = <$word>::MAX as u64;
@@ -177,30 +179,34 @@ macro_rules! fixed_kernel {
             }
 
             fn peak_word(block: &[$word; N]) -> u64 {
-                block
-                    .iter()
-                    .map(|&v| v.unsigned_abs() as u64)
-                    .max()
-                    .unwrap_or(0)
+                // The OR of the magnitudes has the bit length of the largest, which is all
+                // the caller uses, and needs no compare per word.
+                block.iter().fold(0, |bits, &v| bits | v.unsigned_abs()) as u64
             }
 
-            fn line_powers(block: &[$word; N]) -> impl Iterator<Item = u64> + '_ {
+            fn edge_powers(block: &[$word; N]) -> (u64, u64) {
                 let square = |v: $word| (v as $wide * v as $wide) as u64;
-                let (edges, interior) = block.split_at(2);
-                core::iter::once(square(edges[0]))
-                    .chain(
-                        interior
-                            .chunks_exact(2)
-                            .map(move |c| square(c[0]) + square(c[1])),
-                    )
-                    .chain(core::iter::once(square(edges[1])))
+                match block.as_slice() {
+                    [dc, nyquist, ..] => (square(*dc), square(*nyquist)),
+                    _ => (0, 0),
+                }
+            }
+
+            fn interior_powers(block: &[$word; N]) -> impl Iterator<Item = u64> + '_ {
+                // Q15: each square is at most 2^30, so the sum of two fits a `u32`.
+                let square = |v: $word| (v as $wide * v as $wide) as $square;
+                block
+                    .get(2..)
+                    .unwrap_or(&[])
+                    .chunks_exact(2)
+                    .map(move |c| u64::from(square(c[0]) + square(c[1])))
             }
         }
     };
 }
 
-fixed_kernel!(WindowQ15, i16, i32, 15, rfft_q15);
-fixed_kernel!(WindowQ31, i32, i64, 31, rfft_q31);
+fixed_kernel!(WindowQ15, i16, i32, u32, 15, rfft_q15);
+fixed_kernel!(WindowQ31, i32, i64, u64, 31, rfft_q31);
 
 /// A fixed-point streaming spectrum analyzer for `N`-sample blocks (`BINS = N/2 + 1`
 /// lines): the float [`Analyzer`](crate::spectrum::analyzer::Analyzer)'s pipeline in integers.
@@ -381,9 +387,14 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
         } else {
             bit_length(peak) * 2 + 1
         };
-        let completed =
-            self.average
-                .add(W::line_powers(&self.block), 2 * (exponent - up), block_bits);
+        let (dc, nyquist) = W::edge_powers(&self.block);
+        let completed = self.average.add_lines(
+            dc,
+            W::interior_powers(&self.block),
+            nyquist,
+            2 * (exponent - up),
+            block_bits,
+        );
         report.averaged = 1;
         status.blocks_averaged = status.blocks_averaged.saturating_add(1);
         status.current_average = self.average.averaged();
