@@ -160,6 +160,23 @@ macro_rules! fixed_kernel {
                 let log2_n = N.trailing_zeros() as i32;
                 let sum = sum as $wide;
                 let down = log2_n - up;
+                // |t| <= WORD_MAX (the choice of `up`), so t fits an i32, and with
+                // |w| <= 2^FRAC the product fits the wide type.
+                let round = |t: i32, w: $word| {
+                    ((t as $wide * w as $wide + (1 << ($frac - 1))) >> $frac) as $word
+                };
+                if let Some(offset) = detrend_offset(sum, up, down) {
+                    // t = x 2^up + offset, exact modulo 2^32: the true t fits an i32, so
+                    // the wrapping of the parts (a large offset of a quiet block, x 2^up
+                    // past 32 bits) cancels. 2^up as a multiplier: 0 modulo 2^32 for up >= 32.
+                    let scale = 1i32.checked_shl(up as u32).unwrap_or(0);
+                    let offset = offset as i32;
+                    for (x, &w) in block.iter_mut().zip(self.table()) {
+                        let t = (*x as i32).wrapping_mul(scale).wrapping_add(offset);
+                        *x = round(t, w);
+                    }
+                    return;
+                }
                 for (x, &w) in block.iter_mut().zip(self.table()) {
                     let v = ((*x as $wide) << log2_n) - sum;
                     let t = if down > 0 {
@@ -169,8 +186,7 @@ macro_rules! fixed_kernel {
                     } else {
                         v << (-down) as u32
                     };
-                    // |t| <= WORD_MAX and |w| <= 2^FRAC: the product fits the wide type.
-                    *x = ((t * w as $wide + (1 << ($frac - 1))) >> $frac) as $word;
+                    *x = round(t as i32, w);
                 }
             }
 
@@ -472,9 +488,95 @@ fn normalising_shift(scan: &Scan, sum: i64, log2_n: u32, word_max: u64) -> i32 {
     up
 }
 
+/// The `offset` with `round((N x - sum) 2^up / N) = x 2^up + offset` for every integer `x`
+/// (rounded half to even, `down = log2 N - up`), when one exists: always for `up >= 0`
+/// except `up = 0` with `sum` an exact odd multiple of `N / 2`, where the rounding of an
+/// exact half depends on the parity of `x`. `x 2^L` is a multiple of `2^down`, so it passes
+/// the shift untouched; for `up >= 1` the parity that half-to-even looks at is that of the
+/// offset alone. `None`: use the general form (a block scaled down, `up < 0`, or that tie).
+/// Wrapping arithmetic: the offset of a quiet block with a large mean may wrap, and wraps
+/// back when added to `x 2^up`.
+macro_rules! detrend_offset_for {
+    ($wide:ty) => {
+        impl DetrendOffset for $wide {
+            fn detrend_offset(sum: $wide, up: i32, down: i32) -> Option<$wide> {
+                let c = sum.wrapping_neg();
+                if down <= 0 {
+                    return Some(c.wrapping_shl((-down) as u32));
+                }
+                if up < 0 {
+                    return None;
+                }
+                let d = down as u32;
+                let half: $wide = 1 << (d - 1);
+                if up == 0 && c & ((half << 1) - 1) == half {
+                    return None;
+                }
+                let odd = (c >> d) & 1;
+                // up = 0 (no tie): the same for either parity of x, so take the even one.
+                let odd = if up == 0 { 0 } else { odd };
+                Some((c + half - 1 + odd) >> d)
+            }
+        }
+    };
+}
+
+/// See [`detrend_offset_for`].
+trait DetrendOffset: Sized {
+    fn detrend_offset(sum: Self, up: i32, down: i32) -> Option<Self>;
+}
+detrend_offset_for!(i32);
+detrend_offset_for!(i64);
+
+#[inline(always)]
+fn detrend_offset<T: DetrendOffset>(sum: T, up: i32, down: i32) -> Option<T> {
+    T::detrend_offset(sum, up, down)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    // The definition: round((N x - sum) 2^up / N) half to even, as the general loop does.
+    #[test]
+    fn detrend_offset_is_the_general_rounding() {
+        let general = |x: i64, sum: i64, log2_n: i32, up: i32| {
+            let v = (x << log2_n) - sum;
+            let down = log2_n - up;
+            if down > 0 {
+                let d = down as u32;
+                (v + (1 << (d - 1)) - 1 + ((v >> d) & 1)) >> d
+            } else {
+                v << (-down) as u32
+            }
+        };
+        let mut checked = 0;
+        for log2_n in [1, 2, 3, 6] {
+            for up in -2..12 {
+                for sum in -300i64..300 {
+                    let down = log2_n - up;
+                    let Some(offset) = detrend_offset(sum, up, down) else {
+                        assert!(
+                            up < 0
+                                || (up == 0 && (-sum).rem_euclid(1 << log2_n) == 1 << (log2_n - 1))
+                        );
+                        continue;
+                    };
+                    let narrow = detrend_offset(sum as i32, up, down);
+                    assert_eq!(narrow.map(i64::from), Some(offset));
+                    for x in -40i64..40 {
+                        assert_eq!(
+                            (x << up) + offset,
+                            general(x, sum, log2_n, up),
+                            "x {x} sum {sum} log2_n {log2_n} up {up}"
+                        );
+                        checked += 1;
+                    }
+                }
+            }
+        }
+        assert!(checked > 100_000);
+    }
 
     #[test]
     fn normalising_shift_fills_the_word() {
