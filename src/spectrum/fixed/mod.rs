@@ -334,14 +334,14 @@ impl<'a, const N: usize, const BINS: usize> AnalyzerQ31<'a, N, BINS> {
 
     /// Pushes `i16` counts through the Q31 path (the same as pushing them as `i32`).
     pub fn push_counts(&mut self, counts: &[i16]) -> PushReport {
+        // Widened on the way into the block.
         let mut report = PushReport::default();
-        let mut widened = [0i32; 64];
-        for chunk in counts.chunks(widened.len()) {
-            let part = &mut widened[..chunk.len()];
-            for (w, &c) in part.iter_mut().zip(chunk) {
-                *w = i32::from(c);
-            }
-            report.add(self.push_words(part, &mut |_| {}));
+        let mut input = counts;
+        while self
+            .framer
+            .next_block_converted(&mut input, &mut self.block, i32::from)
+        {
+            report.add(self.process_block(&mut |_| {}));
         }
         report
     }
