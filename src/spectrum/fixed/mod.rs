@@ -127,6 +127,12 @@ pub(crate) mod sealed {
     }
 }
 
+/// Whether the condition pass takes its minimum and maximum in pairs (the same result
+/// either way). It pays where every compare is a branch: Armv6-M (Cortex-M0/M0+/M1, Thumb-1
+/// without IT blocks), recognised as the Arm target without 32-bit atomics. Where compares
+/// become conditional moves (Cortex-M4: IT blocks), the plain loop is shorter.
+const PAIRED_SCAN: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = "32")));
+
 /// `(v + half) >> shift` rounding half to even (no bias on exact halves, which integer
 /// sums produce), or `v << -shift` for `shift <= 0`.
 macro_rules! fixed_kernel {
@@ -144,7 +150,29 @@ macro_rules! fixed_kernel {
                 if let Some(&first) = block.first() {
                     (min, max) = (first, first);
                 }
-                for &x in block {
+                if !PAIRED_SCAN {
+                    for &x in block {
+                        sum += x as $wide;
+                        min = min.min(x);
+                        max = max.max(x);
+                    }
+                    return Scan {
+                        sum: sum as i64,
+                        min: min as i64,
+                        max: max as i64,
+                    };
+                }
+                // In pairs: the smaller of each pair can only lower the minimum and the
+                // larger only raise the maximum, three compares per two samples.
+                let mut pairs = block.chunks_exact(2);
+                for pair in &mut pairs {
+                    let (a, b) = (pair[0], pair[1]);
+                    sum += a as $wide + b as $wide;
+                    let (low, high) = if a < b { (a, b) } else { (b, a) };
+                    min = min.min(low);
+                    max = max.max(high);
+                }
+                for &x in pairs.remainder() {
                     sum += x as $wide;
                     min = min.min(x);
                     max = max.max(x);
