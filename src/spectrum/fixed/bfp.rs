@@ -83,28 +83,29 @@ impl<const BINS: usize> PowerAverage<BINS> {
         block_exponent: i32,
         block_bits: u32,
     ) -> bool {
-        let mut all = [0u64; BINS];
+        // Each interior power as the pair (p, 0), whose "power" is p (see `LineWord for u64`).
+        let mut all = [[0u64; 2]; BINS];
         for (slot, p) in all.iter_mut().zip(powers) {
-            *slot = p;
+            slot[0] = p;
         }
-        let (dc, nyquist) = (all[0], all[BINS - 1]);
-        let interior = all[1..BINS - 1].iter().copied();
+        let (dc, nyquist) = (all[0][0], all[BINS - 1][0]);
+        let interior = all[1..BINS - 1].as_flattened();
         self.add_lines(dc, interior, nyquist, block_exponent, block_bits)
     }
 
     /// Folds in one block: `power[k] = p[k] * 2^block_exponent` for DC, the `BINS - 2`
-    /// interior lines in order, then Nyquist; the largest `p[k]` has at most `block_bits`
-    /// bits. Returns whether this block completed a linear average.
+    /// interior lines (`p = re^2 + im^2` of the word pairs of `interior`, in order), then
+    /// Nyquist; the largest `p[k]` has at most `block_bits` bits. Returns whether this block completed a linear average.
     ///
     /// The arithmetic is the one the module describes; only its order is arranged for
     /// cores without a 64-bit barrel shifter: the exponent is chosen once per block, the
     /// accumulator is shifted in a pass of its own only when that exponent moves it
     /// (`u64` shifts by an amount fixed for the block, done on 32-bit halves), and the
     /// per-line fold has no branch.
-    pub(crate) fn add_lines(
+    pub(crate) fn add_lines<W: LineWord>(
         &mut self,
         dc: u64,
-        interior: impl Iterator<Item = u64>,
+        interior: &[W],
         nyquist: u64,
         block_exponent: i32,
         block_bits: u32,
@@ -131,22 +132,16 @@ impl<const BINS: usize> PowerAverage<BINS> {
         if !first {
             realign(&mut self.mantissas, self.exponent - common);
         }
-        let block = Shift::of(block_exponent - common);
-        let (m, s) = (self.reciprocal_mantissa, self.reciprocal_shift);
-        let lines = (dc, interior, nyquist);
-        let acc = &mut self.mantissas;
-        let bits = match (self.mode, first) {
-            (_, true) => block.fold(acc, lines, |_, p| p),
-            (Averaging::Linear { .. }, false) => block.fold(acc, lines, |a, p| a + p),
-            (Averaging::Exponential { .. }, false) => block.fold(acc, lines, |a, p| {
-                if p >= a {
-                    a + times_reciprocal(p - a, m, s)
-                } else {
-                    a - times_reciprocal(a - p, m, s)
-                }
-            }),
-            (Averaging::PeakHold, false) => block.fold(acc, lines, |a, p| a.max(p)),
+        let shift = Shift::of(block_exponent - common);
+        let mode = match (self.mode, first) {
+            (_, true) => Combine::First,
+            (Averaging::Linear { .. }, false) => Combine::Sum,
+            (Averaging::Exponential { .. }, false) => {
+                Combine::Exponential(self.reciprocal_mantissa, self.reciprocal_shift)
+            }
+            (Averaging::PeakHold, false) => Combine::Max,
         };
+        let bits = fold(&mut self.mantissas, (dc, interior, nyquist), shift, mode);
         self.exponent = common;
         // The OR of the lines has the bit length of their maximum.
         self.peak_bits = bit_length(bits);
@@ -206,7 +201,8 @@ impl<const BINS: usize> PowerAverage<BINS> {
 
 /// `shift_round(v, shift)` for every mantissa, in place (nothing for `shift == 0`). The
 /// amount is the same for every line, so the case is chosen once, outside the loop.
-fn realign<const BINS: usize>(lines: &mut [u64; BINS], shift: i32) {
+#[inline(never)]
+fn realign(lines: &mut [u64], shift: i32) {
     match Shift::of(shift) {
         Shift::Left(0) => {}
         Shift::Right(r) => lines.iter_mut().for_each(|v| *v = right_round(*v, r)),
@@ -240,31 +236,91 @@ impl Shift {
             _ => Shift::Any(shift),
         }
     }
+}
 
-    /// One pass over the lines: each block power brought to the common exponent by this
-    /// shift and combined with its (already aligned) mantissa by `combine`; returns the OR
-    /// of the results. Generic, so each mode and each case gets its own loop with both
-    /// inlined and no branch per line.
+/// How a block is combined with the (aligned) accumulator.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Combine {
+    /// The first block of an average: taken as it is.
+    First,
+    /// Linear: summed.
+    Sum,
+    /// Exponential, with `1 / tau` as mantissa and shift.
+    Exponential(u64, i32),
+    /// Peak hold: the larger.
+    Max,
+}
+
+/// A transform word whose pairs `(re, im)` give a line's power.
+pub trait LineWord: Copy {
+    /// `re^2 + im^2`.
+    fn power(re: Self, im: Self) -> u64;
+}
+
+impl LineWord for i16 {
     #[inline(always)]
-    fn fold<const BINS: usize>(
-        self,
-        acc: &mut [u64; BINS],
-        lines: (u64, impl Iterator<Item = u64>, u64),
-        combine: impl Fn(u64, u64) -> u64,
-    ) -> u64 {
-        match self {
-            Shift::Left(l) => fold_with(acc, lines, |p| left(p, l), combine),
-            Shift::LeftWide(l) => fold_with(acc, lines, |p| left_wide(p, l), combine),
-            Shift::Right(r) => fold_with(acc, lines, |p| right_round(p, r), combine),
-            Shift::Any(s) => fold_with(acc, lines, |p| shift_round(p, s), combine),
-        }
+    fn power(re: i16, im: i16) -> u64 {
+        // Each square is at most 2^30, so the sum of two fits a `u32`.
+        let square = |v: i16| (i32::from(v) * i32::from(v)) as u32;
+        u64::from(square(re) + square(im))
+    }
+}
+
+impl LineWord for i32 {
+    #[inline(always)]
+    fn power(re: i32, im: i32) -> u64 {
+        let square = |v: i32| (i64::from(v) * i64::from(v)) as u64;
+        square(re) + square(im)
+    }
+}
+
+/// A given power `re` (with `im = 0`), for the unit tests.
+#[cfg(test)]
+impl LineWord for u64 {
+    fn power(re: u64, im: u64) -> u64 {
+        re + im
+    }
+}
+
+/// One pass over the lines: each block power brought to the common exponent by `shift` and
+/// combined with its (already aligned) mantissa; returns the OR of the results. Every mode
+/// and every case of the shift gets its own loop with both inlined and no branch per line.
+/// Takes slices, so one copy serves every `N` (it is not inlined for the same reason).
+#[inline(never)]
+fn fold<W: LineWord>(acc: &mut [u64], lines: (u64, &[W], u64), shift: Shift, mode: Combine) -> u64 {
+    match mode {
+        Combine::First => fold_shifted(acc, lines, shift, |_, p| p),
+        Combine::Sum => fold_shifted(acc, lines, shift, |a, p| a + p),
+        Combine::Exponential(m, s) => fold_shifted(acc, lines, shift, |a, p| {
+            if p >= a {
+                a + times_reciprocal(p - a, m, s)
+            } else {
+                a - times_reciprocal(a - p, m, s)
+            }
+        }),
+        Combine::Max => fold_shifted(acc, lines, shift, |a, p| a.max(p)),
     }
 }
 
 #[inline(always)]
-fn fold_with<const BINS: usize>(
-    acc: &mut [u64; BINS],
-    (dc, interior, nyquist): (u64, impl Iterator<Item = u64>, u64),
+fn fold_shifted<W: LineWord>(
+    acc: &mut [u64],
+    lines: (u64, &[W], u64),
+    shift: Shift,
+    combine: impl Fn(u64, u64) -> u64,
+) -> u64 {
+    match shift {
+        Shift::Left(l) => fold_with(acc, lines, |p| left(p, l), combine),
+        Shift::LeftWide(l) => fold_with(acc, lines, |p| left_wide(p, l), combine),
+        Shift::Right(r) => fold_with(acc, lines, |p| right_round(p, r), combine),
+        Shift::Any(s) => fold_with(acc, lines, |p| shift_round(p, s), combine),
+    }
+}
+
+#[inline(always)]
+fn fold_with<W: LineWord>(
+    acc: &mut [u64],
+    (dc, interior, nyquist): (u64, &[W], u64),
     align: impl Fn(u64) -> u64,
     combine: impl Fn(u64, u64) -> u64,
 ) -> u64 {
@@ -277,8 +333,8 @@ fn fold_with<const BINS: usize>(
     *dc_line = combine(*dc_line, align(dc));
     *nyquist_line = combine(*nyquist_line, align(nyquist));
     let mut bits = *dc_line | *nyquist_line;
-    for (slot, p) in middle.iter_mut().zip(interior) {
-        *slot = combine(*slot, align(p));
+    for (slot, pair) in middle.iter_mut().zip(interior.chunks_exact(2)) {
+        *slot = combine(*slot, align(W::power(pair[0], pair[1])));
         bits |= *slot;
     }
     bits

@@ -112,7 +112,7 @@ pub(crate) mod sealed {
     /// The per-word arithmetic of one path, written once by `fixed_kernel!`.
     pub trait Kernel<const N: usize> {
         /// A sample and a transform word: `i16` or `i32`.
-        type Word: Copy + Default + core::fmt::Debug;
+        type Word: Copy + Default + core::fmt::Debug + super::bfp::LineWord;
         /// Largest magnitude a windowed word may take.
         const WORD_MAX: u64;
         /// The window's factors as the path applies it.
@@ -127,8 +127,6 @@ pub(crate) mod sealed {
         fn peak_word(block: &[Self::Word; N]) -> u64;
         /// `re^2 + im^2` of DC and of Nyquist.
         fn edge_powers(block: &[Self::Word; N]) -> (u64, u64);
-        /// `re^2 + im^2` of the interior lines `1 .. N/2`, in order.
-        fn interior_powers(block: &[Self::Word; N]) -> impl Iterator<Item = u64> + '_;
     }
 }
 
@@ -141,7 +139,7 @@ const PAIRED_SCAN: bool = cfg!(all(target_arch = "arm", not(target_has_atomic = 
 /// `(v + half) >> shift` rounding half to even (no bias on exact halves, which integer
 /// sums produce), or `v << -shift` for `shift <= 0`.
 macro_rules! fixed_kernel {
-    ($window:ident, $word:ty, $wide:ty, $square:ty, $frac:expr, $rfft:ident) => {
+    ($window:ident, $word:ty, $wide:ty, $frac:expr, $rfft:ident) => {
         impl<const N: usize> sealed::Kernel<N> for $window<N> {
             type Word = $word;
             const WORD_MAX: u64 = <$word>::MAX as u64;
@@ -240,22 +238,12 @@ macro_rules! fixed_kernel {
                     _ => (0, 0),
                 }
             }
-
-            fn interior_powers(block: &[$word; N]) -> impl Iterator<Item = u64> + '_ {
-                // Q15: each square is at most 2^30, so the sum of two fits a `u32`.
-                let square = |v: $word| (v as $wide * v as $wide) as $square;
-                block
-                    .get(2..)
-                    .unwrap_or(&[])
-                    .chunks_exact(2)
-                    .map(move |c| u64::from(square(c[0]) + square(c[1])))
-            }
         }
     };
 }
 
-fixed_kernel!(WindowQ15, i16, i32, u32, 15, rfft_q15);
-fixed_kernel!(WindowQ31, i32, i64, u64, 31, rfft_q31);
+fixed_kernel!(WindowQ15, i16, i32, 15, rfft_q15);
+fixed_kernel!(WindowQ31, i32, i64, 31, rfft_q31);
 
 /// A fixed-point streaming spectrum analyzer for `N`-sample blocks (`BINS = N/2 + 1`
 /// lines): the float [`Analyzer`](crate::spectrum::analyzer::Analyzer)'s pipeline in integers.
@@ -439,7 +427,7 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
         let (dc, nyquist) = W::edge_powers(&self.block);
         let completed = self.average.add_lines(
             dc,
-            W::interior_powers(&self.block),
+            self.block.get(2..).unwrap_or(&[]),
             nyquist,
             2 * (exponent - up),
             block_bits,
