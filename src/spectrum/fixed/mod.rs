@@ -57,12 +57,14 @@
 //! # Cost
 //!
 //! Outside the transform, four O(N) integer passes (scan, window, peak, fold into the
-//! average), plus a shift of the accumulator on the blocks that move its exponent. None
-//! shifts a `u64` by a variable amount per line (a library call on a Cortex-M0): the block's
-//! shift is sorted into a 32-bit case once, and the window pass removes the mean as one
+//! average), plus a shift of the accumulator on the blocks that move its exponent. In the
+//! usual cases no `u64` is shifted by a variable amount per line (a library call on a
+//! Cortex-M0): the block's shift is sorted into a 32-bit case once (right shifts of 32 bits
+//! or more, and exponential averaging's `1 / tau`, keep the general form), and the window pass removes the mean as one
 //! offset per block (`x 2^u + offset`, exact) wherever half-to-even rounding allows. On the
 //! QEMU boards (`boards/README.md`) the Q15 stages outside the transform take about 37k
-//! instructions per 1024 block on a Cortex-M4F and 57k on a Cortex-M0. On an x86-64 host the Q15 pipeline measured 1.15 to 1.3 times a bare
+//! instructions per 1024 block on a Cortex-M4F and 55k on a Cortex-M0. On an x86-64 host
+//! the Q15 pipeline measured 1.15 to 1.3 times a bare
 //! `rfft_q15` of a copied block (`benches/fixed.rs`, N = 256 to 4096, shared machine).
 
 #![deny(clippy::float_arithmetic)]
