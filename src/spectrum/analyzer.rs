@@ -139,14 +139,14 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
     /// Pushes `i16` samples (counts; `sensitivity` is then engineering units per count, and
     /// `full_scale` is in counts). The same as pushing them converted to `f32`.
     pub fn push_counts(&mut self, counts: &[i16]) -> PushReport {
+        // Converted on the way into the block (exact: every i16 is an f32).
         let mut report = PushReport::default();
-        let mut converted = [0.0f32; 64];
-        for chunk in counts.chunks(converted.len()) {
-            let part = &mut converted[..chunk.len()];
-            for (f, &c) in part.iter_mut().zip(chunk) {
-                *f = f32::from(c);
-            }
-            report.add(self.push(part));
+        let mut input = counts;
+        while self
+            .framer
+            .next_block_converted(&mut input, &mut self.block, f32::from)
+        {
+            report.add(self.process_block(&mut |_| {}));
         }
         report
     }

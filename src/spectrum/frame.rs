@@ -92,6 +92,39 @@ impl<T: Copy + Default, const N: usize> Framer<T, N> {
         self.len = self.overlap;
         true
     }
+
+    /// [`Framer::next_block`] for input of another sample type, each sample converted by
+    /// `convert` on its way into the block or the buffer (it holds converted samples), so
+    /// converting and framing are one pass. The same blocks as converting the whole stream
+    /// first and pushing it through `next_block`.
+    pub fn next_block_converted<S: Copy>(
+        &mut self,
+        input: &mut &[S],
+        block: &mut [T; N],
+        convert: impl Fn(S) -> T,
+    ) -> bool {
+        let held = self.len;
+        let wanted = N - held;
+        if input.len() < wanted {
+            let end = held + input.len();
+            for (slot, &x) in self.pending[held..end].iter_mut().zip(*input) {
+                *slot = convert(x);
+            }
+            self.len = end;
+            *input = &[];
+            return false;
+        }
+        let (taken, rest) = input.split_at(wanted);
+        *input = rest;
+        block[..held].copy_from_slice(&self.pending[..held]);
+        for (slot, &x) in block[held..].iter_mut().zip(taken) {
+            *slot = convert(x);
+        }
+        let hop = N - self.overlap;
+        self.pending[..self.overlap].copy_from_slice(&block[hop..]);
+        self.len = self.overlap;
+        true
+    }
 }
 
 #[cfg(test)]
@@ -139,6 +172,28 @@ mod tests {
                     want,
                     "overlap {overlap}, chunk {chunk}"
                 );
+            }
+        }
+    }
+
+    #[test]
+    fn converting_while_framing_gives_the_converted_blocks() {
+        let stream: Vec<u32> = (0..100).collect();
+        let narrow: Vec<u16> = (0..100).collect();
+        for overlap in [0, 3, 7] {
+            let want = expected_blocks(&stream, 8, 8 - overlap);
+            for chunk in [1, 3, 8, 9, 100] {
+                let mut framer: Framer<u32, 8> = Framer::new(overlap).unwrap();
+                let mut block = [0; 8];
+                let mut got = Vec::new();
+                for piece in narrow.chunks(chunk) {
+                    let mut input = piece;
+                    while framer.next_block_converted(&mut input, &mut block, u32::from) {
+                        got.push(block.to_vec());
+                    }
+                    assert!(input.is_empty());
+                }
+                assert_eq!(got, want, "overlap {overlap}, chunk {chunk}");
             }
         }
     }

@@ -75,12 +75,38 @@ impl<const BINS: usize> PowerAverage<BINS> {
         !(self.done && self.mode.holds_when_done())
     }
 
-    /// Folds in one block: `power[k] = powers[k] * 2^block_exponent` (`BINS` values, DC
-    /// first), whose largest value has at most `block_bits` bits. Returns whether this block
-    /// completed a linear average.
+    /// [`PowerAverage::add_lines`] with the `BINS` powers from one iterator, DC first.
+    #[cfg(test)]
     pub(crate) fn add(
         &mut self,
         powers: impl Iterator<Item = u64>,
+        block_exponent: i32,
+        block_bits: u32,
+    ) -> bool {
+        // Each interior power as the pair (p, 0), whose "power" is p (see `LineWord for u64`).
+        let mut all = [[0u64; 2]; BINS];
+        for (slot, p) in all.iter_mut().zip(powers) {
+            slot[0] = p;
+        }
+        let (dc, nyquist) = (all[0][0], all[BINS - 1][0]);
+        let interior = all[1..BINS - 1].as_flattened();
+        self.add_lines(dc, interior, nyquist, block_exponent, block_bits)
+    }
+
+    /// Folds in one block: `power[k] = p[k] * 2^block_exponent` for DC, the `BINS - 2`
+    /// interior lines (`p = re^2 + im^2` of the word pairs of `interior`, in order), then
+    /// Nyquist; the largest `p[k]` has at most `block_bits` bits. Returns whether this block completed a linear average.
+    ///
+    /// The arithmetic is the one the module describes; only its order is arranged for
+    /// cores without a 64-bit barrel shifter: the exponent is chosen once per block, the
+    /// accumulator is shifted in a pass of its own only when that exponent moves it
+    /// (`u64` shifts by an amount fixed for the block, done on 32-bit halves), and the
+    /// per-line fold has no branch.
+    pub(crate) fn add_lines<W: LineWord>(
+        &mut self,
+        dc: u64,
+        interior: &[W],
+        nyquist: u64,
         block_exponent: i32,
         block_bits: u32,
     ) -> bool {
@@ -103,25 +129,22 @@ impl<const BINS: usize> PowerAverage<BINS> {
             (None, Some(b)) => b - TOP_BITS,
             (None, None) => 0,
         };
-        let average_shift = self.exponent - common;
-        let block_shift = block_exponent - common;
-        let (m, s) = (self.reciprocal_mantissa, self.reciprocal_shift);
-        let lines = &mut self.mantissas;
-        let shifts = (first, average_shift, block_shift);
-        let peak = match (self.mode, first) {
-            (_, true) => fold(lines, powers, shifts, |_, p| p),
-            (Averaging::Linear { .. }, false) => fold(lines, powers, shifts, |a, p| a + p),
-            (Averaging::Exponential { .. }, false) => fold(lines, powers, shifts, |a, p| {
-                if p >= a {
-                    a + times_reciprocal(p - a, m, s)
-                } else {
-                    a - times_reciprocal(a - p, m, s)
-                }
-            }),
-            (Averaging::PeakHold, false) => fold(lines, powers, shifts, |a, p| a.max(p)),
+        if !first {
+            realign(&mut self.mantissas, self.exponent - common);
+        }
+        let shift = Shift::of(block_exponent - common);
+        let mode = match (self.mode, first) {
+            (_, true) => Combine::First,
+            (Averaging::Linear { .. }, false) => Combine::Sum,
+            (Averaging::Exponential { .. }, false) => {
+                Combine::Exponential(self.reciprocal_mantissa, self.reciprocal_shift)
+            }
+            (Averaging::PeakHold, false) => Combine::Max,
         };
+        let bits = fold(&mut self.mantissas, (dc, interior, nyquist), shift, mode);
         self.exponent = common;
-        self.peak_bits = bit_length(peak);
+        // The OR of the lines has the bit length of their maximum.
+        self.peak_bits = bit_length(bits);
         self.averaged = self.averaged.saturating_add(1);
         if let Averaging::Linear { count, .. } = self.mode {
             if self.averaged >= count {
@@ -176,28 +199,186 @@ impl<const BINS: usize> PowerAverage<BINS> {
     }
 }
 
-/// One pass over the lines: both operands brought to the common exponent (`shifts` =
-/// first block, accumulator shift, block shift), combined; returns the largest result.
-/// Generic, so each mode gets its own loop with `combine` inlined.
+/// `shift_round(v, shift)` for every mantissa, in place (nothing for `shift == 0`). The
+/// amount is the same for every line, so the case is chosen once, outside the loop.
+#[inline(never)]
+fn realign(lines: &mut [u64], shift: i32) {
+    match Shift::of(shift) {
+        Shift::Left(0) => {}
+        Shift::Right(r) => lines.iter_mut().for_each(|v| *v = right_round(*v, r)),
+        Shift::Left(l) => lines.iter_mut().for_each(|v| *v = left(*v, l)),
+        Shift::LeftWide(l) => lines.iter_mut().for_each(|v| *v = left_wide(*v, l)),
+        Shift::Any(s) => lines.iter_mut().for_each(|v| *v = shift_round(*v, s)),
+    }
+}
+
+/// A shift by an amount fixed for a whole block, sorted into the cases that 32-bit
+/// instructions do without a 64-bit shift: a Cortex-M0 has none, and a `u64` shift by a
+/// variable amount is a library call there.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Shift {
+    /// `v << l`, `l` in `0..32`.
+    Left(u32),
+    /// `v << (32 + l)`, `l` in `0..32`.
+    LeftWide(u32),
+    /// `v >> r` rounded half up, `r` in `1..32`.
+    Right(u32),
+    /// Anything else: [`shift_round`].
+    Any(i32),
+}
+
+impl Shift {
+    fn of(shift: i32) -> Self {
+        match shift {
+            0..=31 => Shift::Left(shift as u32),
+            32..=63 => Shift::LeftWide(shift as u32 - 32),
+            -31..=-1 => Shift::Right(shift.unsigned_abs()),
+            _ => Shift::Any(shift),
+        }
+    }
+}
+
+/// How a block is combined with the (aligned) accumulator.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+enum Combine {
+    /// The first block of an average: taken as it is.
+    First,
+    /// Linear: summed.
+    Sum,
+    /// Exponential, with `1 / tau` as mantissa and shift.
+    Exponential(u64, i32),
+    /// Peak hold: the larger.
+    Max,
+}
+
+/// A transform word whose pairs `(re, im)` give a line's power.
+pub trait LineWord: Copy {
+    /// `re^2 + im^2`.
+    fn power(re: Self, im: Self) -> u64;
+}
+
+impl LineWord for i16 {
+    #[inline(always)]
+    fn power(re: i16, im: i16) -> u64 {
+        // Each square is at most 2^30, so the sum of two fits a `u32`.
+        let square = |v: i16| (i32::from(v) * i32::from(v)) as u32;
+        u64::from(square(re) + square(im))
+    }
+}
+
+impl LineWord for i32 {
+    #[inline(always)]
+    fn power(re: i32, im: i32) -> u64 {
+        let square = |v: i32| (i64::from(v) * i64::from(v)) as u64;
+        square(re) + square(im)
+    }
+}
+
+/// A given power `re` (with `im = 0`), for the unit tests.
+#[cfg(test)]
+impl LineWord for u64 {
+    fn power(re: u64, im: u64) -> u64 {
+        re + im
+    }
+}
+
+/// One pass over the lines: each block power brought to the common exponent by `shift` and
+/// combined with its (already aligned) mantissa; returns the OR of the results. Every mode
+/// and every case of the shift gets its own loop with both inlined and no branch per line.
+/// Takes slices, so one copy serves every `N` (it is not inlined for the same reason).
+#[inline(never)]
+fn fold<W: LineWord>(acc: &mut [u64], lines: (u64, &[W], u64), shift: Shift, mode: Combine) -> u64 {
+    match mode {
+        Combine::First => fold_shifted(acc, lines, shift, |_, p| p),
+        Combine::Sum => fold_shifted(acc, lines, shift, |a, p| a + p),
+        Combine::Exponential(m, s) => fold_shifted(acc, lines, shift, |a, p| {
+            if p >= a {
+                a + times_reciprocal(p - a, m, s)
+            } else {
+                a - times_reciprocal(a - p, m, s)
+            }
+        }),
+        Combine::Max => fold_shifted(acc, lines, shift, |a, p| a.max(p)),
+    }
+}
+
 #[inline(always)]
-fn fold<const BINS: usize>(
-    lines: &mut [u64; BINS],
-    powers: impl Iterator<Item = u64>,
-    (first, average_shift, block_shift): (bool, i32, i32),
+fn fold_shifted<W: LineWord>(
+    acc: &mut [u64],
+    lines: (u64, &[W], u64),
+    shift: Shift,
     combine: impl Fn(u64, u64) -> u64,
 ) -> u64 {
-    let mut peak = 0;
-    for (slot, p) in lines.iter_mut().zip(powers) {
-        let new = shift_round(p, block_shift);
-        let old = if first {
-            0
-        } else {
-            shift_round(*slot, average_shift)
-        };
-        *slot = combine(old, new);
-        peak = peak.max(*slot);
+    match shift {
+        Shift::Left(l) => fold_with(acc, lines, |p| left(p, l), combine),
+        Shift::LeftWide(l) => fold_with(acc, lines, |p| left_wide(p, l), combine),
+        Shift::Right(r) => fold_with(acc, lines, |p| right_round(p, r), combine),
+        Shift::Any(s) => fold_with(acc, lines, |p| shift_round(p, s), combine),
     }
-    peak
+}
+
+#[inline(always)]
+fn fold_with<W: LineWord>(
+    acc: &mut [u64],
+    (dc, interior, nyquist): (u64, &[W], u64),
+    align: impl Fn(u64) -> u64,
+    combine: impl Fn(u64, u64) -> u64,
+) -> u64 {
+    let Some((dc_line, rest)) = acc.split_first_mut() else {
+        return 0;
+    };
+    let Some((nyquist_line, middle)) = rest.split_last_mut() else {
+        return 0;
+    };
+    *dc_line = combine(*dc_line, align(dc));
+    *nyquist_line = combine(*nyquist_line, align(nyquist));
+    // Only the high halves are ORed per line (one register fewer in the loop, which a
+    // Cortex-M0 with its eight low registers feels); the low halves matter only when every
+    // high half is zero, and then take a pass of their own.
+    let high = |v: u64| (v >> 32) as u32;
+    let mut high_bits = high(*dc_line) | high(*nyquist_line);
+    for (slot, pair) in middle.iter_mut().zip(interior.chunks_exact(2)) {
+        *slot = combine(*slot, align(W::power(pair[0], pair[1])));
+        high_bits |= high(*slot);
+    }
+    if high_bits != 0 {
+        // The same bit length as the OR of the full lines.
+        return u64::from(high_bits) << 32;
+    }
+    acc.iter().fold(0, |bits, &v| bits | v)
+}
+
+/// The 32-bit halves of `v`, high first.
+#[inline(always)]
+fn halves(v: u64) -> (u32, u32) {
+    ((v >> 32) as u32, v as u32)
+}
+
+/// `hi 2^32 + lo`.
+#[inline(always)]
+fn join(hi: u32, lo: u32) -> u64 {
+    (u64::from(hi) << 32) | u64::from(lo)
+}
+
+/// `v << l` for `l < 32` (bits beyond 64 are lost, as with `<<`).
+#[inline(always)]
+fn left(v: u64, l: u32) -> u64 {
+    let (hi, lo) = halves(v);
+    join((hi << l) | ((lo >> 1) >> (31 - l)), lo << l)
+}
+
+/// `v << (32 + l)` for `l < 32`.
+#[inline(always)]
+fn left_wide(v: u64, l: u32) -> u64 {
+    join((v as u32) << l, 0)
+}
+
+/// `v >> r` rounded half up (`shift_round(v, -r)`) for `1 <= r < 32`.
+#[inline(always)]
+fn right_round(v: u64, r: u32) -> u64 {
+    let (hi, lo) = halves(v);
+    let round = (lo >> (r - 1)) & 1;
+    join(hi >> r, (lo >> r) | (hi << (32 - r))) + u64::from(round)
 }
 
 /// `d / tau` rounded, for `d < 2^63` and `1 / tau = m * 2^-(31 + s)` with `m <= 2^31`:
