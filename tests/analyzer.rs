@@ -112,8 +112,9 @@ fn exact_bin_tone_reads_its_amplitude_for_every_window() {
 
 // reference: Heinzel 2002 scalloping loss (Factors::scalloping_loss_db, the window's DTFT at
 // half a bin). A tone at 100.5 Hz peaks at the window's half-bin response; the residual is
-// the negative-frequency image (REFERENCES.md §2.2 example B), bounded here by the window's
-// own response 200.5 and 201.5 bins away (naive f64 DTFT), plus 1e-5 for f32.
+// the negative-frequency image (scipy 1.17.1 `signal.periodogram`, spectra_examples.csv example
+// B), bounded here by the window's own response 200.5 and 201.5 bins away (naive f64 DTFT),
+// plus 1e-5 for f32.
 #[test]
 fn half_bin_tone_reads_the_scalloping_loss() {
     let tone = sine(N, 1.0, 100.5, FS as f64);
@@ -135,8 +136,9 @@ fn half_bin_tone_reads_the_scalloping_loss() {
     }
 }
 
-// reference: scipy 1.17.1 periodogram, REFERENCES.md §2.2 example B (peak corrected amplitude
-// at 100.5 Hz, image included). Printed to 6 digits; 5e-6 covers the rounding and f32.
+// reference: scipy 1.17.1 `signal.periodogram`, computed by tests/reference/generate.py into
+// tests/reference/spectra_examples.csv, example B (peak corrected amplitude at 100.5 Hz, image
+// included). Printed to 6 digits; 5e-6 covers the rounding and f32.
 #[test]
 fn example_b_half_bin_amplitudes() {
     let tone = sine(N, 1.0, 100.5, FS as f64);
@@ -167,7 +169,8 @@ fn example_b_half_bin_amplitudes() {
     assert!(close(band, 0.5, 2e-6), "{band}");
 }
 
-// reference: scipy 1.17.1 periodogram, REFERENCES.md §2.2 example A (Hann, exact bin).
+// reference: scipy 1.17.1 `signal.periodogram`, computed by tests/reference/generate.py into
+// tests/reference/spectra_examples.csv, example A (Hann, exact bin).
 // Values printed to 6 digits; 2e-6 absolute covers that and the f32 path.
 #[test]
 fn example_a_exact_bin_levels() {
@@ -200,7 +203,8 @@ fn example_a_exact_bin_levels() {
     assert_eq!(spectrum.averages(), 1);
 }
 
-// reference: scipy 1.17.1 periodogram, REFERENCES.md §2.2 example D (boxcar, 'spectrum'):
+// reference: scipy 1.17.1 `signal.periodogram`, computed by tests/reference/generate.py into
+// tests/reference/spectra_examples.csv, example D (boxcar, 'spectrum'):
 // DC and Nyquist are not doubled; detrend='constant' removes DC.
 #[test]
 fn example_d_dc_and_nyquist() {
@@ -230,12 +234,12 @@ fn noise(rng: &mut SplitMix64, len: usize, sigma: f64) -> Vec<f32> {
     (0..len).map(|_| (sigma * rng.gaussian()) as f32).collect()
 }
 
-// reference: REFERENCES.md §2.2 example C (analytic: one-sided PSD of white noise is
-// 2 sigma^2 / fs, Nyquist sigma^2 / fs; Parseval: sum PSD df = sigma^2). Hann, 50 % overlap,
-// 1023 blocks. Tolerance: 4 standard errors. Per line the relative standard error of a Welch
-// average is sqrt((1 + 2 c50^2) / K) (Welch 1967); the mean over 511 lines has about
-// 511 / NENBW independent lines. The Nyquist line is real (chi-square with 1 degree of
-// freedom), so its error is sqrt(2) larger.
+// reference: scipy 1.17.1 `signal.welch`, tests/reference/spectra_examples.csv example C
+// (analytic: one-sided PSD of white noise is 2 sigma^2 / fs, Nyquist sigma^2 / fs; Parseval:
+// sum PSD df = sigma^2). Hann, 50 % overlap, 1023 blocks. Tolerance: 4 standard errors. Per
+// line the relative standard error of a Welch average is sqrt((1 + 2 c50^2) / K) (Welch 1967);
+// the mean over 511 lines has about 511 / NENBW independent lines. The Nyquist line is real
+// (chi-square with 1 degree of freedom), so its error is sqrt(2) larger.
 #[test]
 fn example_c_white_noise_psd() {
     let sigma = 0.1;
@@ -290,7 +294,8 @@ fn example_c_white_noise_psd() {
     assert!((mean_spectrum / (3.0 * variance / N as f64) - 1.0).abs() < tolerance);
 }
 
-// reference: Welch 1967, variance of the averaged periodogram, REFERENCES.md §2.2 example E:
+// reference: Welch 1967, variance of the averaged periodogram (checked by Monte Carlo with
+// scipy 1.17.1 `signal.welch`):
 // (1/K)[1 + 2 sum_j (1 - j/K) c(jD)^2] = 0.03399 for Hann, 50 % overlap, K = 31, nperseg 256.
 // Monte Carlo over 1000 records of 4096 samples. Tolerance: the variance estimate from T
 // records has relative standard error sqrt(2 / T); averaged over 125 lines of which about

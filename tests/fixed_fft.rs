@@ -176,7 +176,7 @@ fn q31_two_tone_stats<const N: usize>(level_db: f64) -> Stats {
 // Two tones under Hann: SNR, bias and the small tone's level.
 // ---------------------------------------------------------------------------------------
 
-// CMSIS-DSP figures: REFERENCES.md section 3.2, cmsisdsp 1.10.3, "hann" case, q15, SNR fft
+// CMSIS-DSP figures: cmsisdsp 1.10.3 `arm_rfft_q15` (scalar build), "hann" case, q15, SNR fft
 // (against float64 np.fft.rfft of the same quantised input): 53.1 / 47.8 / 42.8 dB at
 // N = 256 / 1024 / 4096. Our signal is built the same way (tones at 0.1 N + 0.37 and
 // 0.3 N + 0.21 bins, -60 dB apart, periodic Hann in f64, 16-bit quantisation, 32 random phase
@@ -264,8 +264,8 @@ fn q31_two_tone_snr() {
         assert!(stats.snr_db() >= min_db, "N = {N}: {stats:?}");
     }
     // Target 130 dB at N = 1024; CMSIS-DSP's Q31 RFFT measured 139.5 dB on its hann case
-    // (REFERENCES.md section 3.2, cmsisdsp 1.10.3). The same 130 dB floor is asserted at
-    // the ends of the range.
+    // (cmsisdsp 1.10.3 `arm_rfft_q31`; 139.49 dB in tests/reference/cmsis_fixed_summary.csv).
+    // The same 130 dB floor is asserted at the ends of the range.
     check::<64>(130.0);
     check::<256>(130.0);
     check::<1024>(130.0);
@@ -298,7 +298,8 @@ fn cmsis_case_spectra<const N: usize>(case: &CmsisFixedCase) -> [Vec<Complex64>;
         FixedKind::Q31 => q31_spectrum::<N>(&core::array::from_fn(|i| case.input[i])).0,
     };
     // CMSIS's output read as Q1.15 (Q1.31) is X / N of the input read the same way
-    // (REFERENCES.md section 3.1, "meaning"), so times N it is X of the input integers.
+    // (CMSIS-DSP `arm_rfft_q15.c` / `arm_rfft_q31.c` doc comments; measured with cmsisdsp
+    // 1.10.3), so times N it is X of the input integers.
     let cmsis = case
         .output_bins()
         .iter()
@@ -310,7 +311,7 @@ fn cmsis_case_spectra<const N: usize>(case: &CmsisFixedCase) -> [Vec<Complex64>;
 /// reference: CMSIS-DSP 1.10.3 (`arm_rfft_q15` / `arm_rfft_q31`), outputs stored in
 /// `tests/reference/cmsis_fixed.csv` by `generate.py`, and rustfft 6.4 in f64 as the truth
 /// both are measured against. Targets: Q15 at -1 dBFS beats CMSIS's SNR by 6 dB at every N;
-/// Q15 at -41 dBFS (where CMSIS's 1/N scaling leaves it 13.7 / 8.8 / 3.4 dB) reaches 50 dB at
+/// Q15 at -41 dBFS (where CMSIS's 1/N scaling leaves it 13.7 / 8.8 / 3.3 dB) reaches 50 dB at
 /// N = 1024; Q31 beats CMSIS's Q31 by 6 dB at both levels (measured 20.9 dB or more).
 #[test]
 fn q15_and_q31_beat_cmsis_bin_by_bin() {

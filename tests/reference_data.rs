@@ -108,7 +108,7 @@ fn window_golden_vectors_load() {
 
 #[test]
 fn hann_16_matches_published_first_samples() {
-    // REFERENCES.md section 1.4 (source: scipy 1.17.1 get_window / windows.hann).
+    // scipy 1.17.1 `signal.get_window` / `windows.hann` (via tests/reference/generate.py).
     let periodic = common::window_golden("hann", 16, false);
     common::allclose(
         &periodic[..5],
@@ -173,9 +173,9 @@ fn welch_cases_load() {
                 c.expected[k]
             );
         }
-        // Example D of REFERENCES.md 2.2: the 0.3 offset reads 0.3^2 (not doubled) at DC, and
-        // detrend='constant' removes it exactly only for the boxcar (with a taper the windowed
-        // remainder still has a DC component).
+        // Example D (scipy 1.17.1 `signal.periodogram`): the 0.3 offset reads 0.3^2 (not
+        // doubled) at DC, and detrend='constant' removes it exactly only for the boxcar (with a
+        // taper the windowed remainder still has a DC component).
         if c.window == "boxcar" && c.scaling == Scaling::Spectrum {
             let dc = if c.detrend_constant { 0.0 } else { 0.09 };
             assert!(
@@ -208,7 +208,7 @@ fn cmsis_fixed_cases_load() {
         }
         assert!(c.snr_db > 0.0 && c.snr_db < 200.0);
     }
-    // REFERENCES.md section 3.2 measured 47.8 dB for Q15 at N = 1024 (other phases).
+    // cmsisdsp 1.10.3 `arm_rfft_q15` measured 47.8 dB for Q15 at N = 1024 (other phases).
     let q15_1024 = cases
         .iter()
         .find(|c| c.kind == FixedKind::Q15 && c.n == 1024 && c.level_dbfs == -1.0)

@@ -3,9 +3,11 @@
 //! Source: G. Heinzel, A. Ruediger, R. Schilling, "Spectrum and spectral density estimation by
 //! the Discrete Fourier transform (DFT), including a comprehensive list of window functions and
 //! some new flat-top windows", AEI Hannover, 2002, section C (window list): PSLL, NENBW and
-//! the amplitude flatness "emax". The figures were read through the CMSIS-DSP window doc
-//! tables (which cite Heinzel 2002) and a third-party transcription of Heinzel's list; see
-//! shared REFERENCES.md section 1.2.
+//! the amplitude flatness "emax". For Hann, Hamming, BH92, Nuttall4c and HFT90D to HFT144D the
+//! same figures are reproduced in the CMSIS-DSP window doc comments
+//! (ARM-software/CMSIS-DSP, `Source/WindowFunctions/*.c`, which cite Heinzel 2002). HFT70
+//! and the "Matlab" flat top are not in CMSIS-DSP; their figures are Heinzel's as copied in
+//! public code, not re-read from the paper.
 //!
 //! Heinzel's figures are asymptotic (large N) and rounded; we evaluate at N = 1024 (where
 //! the finite-N effect on NENBW is below 1e-9 for periodic windows: NENBW of a cosine sum is
@@ -52,11 +54,13 @@ const HEINZEL_2002: [Published; 10] = [
         nenbw_bins: Some(1.9761),
         emax_db: -0.8506,
     },
-    // Heinzel's "Matlab" flat top. The transcription's NENBW 3.774 disagrees with every
-    // computation (3.7702, REFERENCES.md section 6 item 9), so it is not checked here; the
-    // golden-vector test checks this window against SciPy instead. emax: the published
-    // header and docstring disagree (0.0097 / 0.0025); we check |emax| < 0.01 dB, the flat-top
-    // guarantee.
+    // Heinzel's "Matlab" flat top (= SciPy's `flattop`). The PSLL, -93.0 dB, is Heinzel's and
+    // is checked. Its published NENBW and emax are inconsistent: NENBW 3.774 disagrees with
+    // every computation (3.7702, scipy 1.17.1, tests/reference/window_factors.csv), so NENBW is
+    // not checked here (the golden-vector test checks this window against SciPy instead), and
+    // the emax figures disagree with each other (0.0097 / 0.0025), so the emax check is the
+    // flat-top property |emax| < 0.01 dB. The -0.0098 below is SciPy's computed value at half
+    // a bin, printed for comparison only.
     Published {
         shape: Shape::FlatTop,
         psll_db: -93.0,
@@ -212,7 +216,8 @@ fn highest_sidelobe_matches_heinzel() {
             row.psll_db
         );
         // Published to 0.1 dB: +-0.05, plus 0.06 dB for evaluating at N = 1024 rather than
-        // Heinzel's large N (SciPy at N = 1024 gives -144.0 for HFT144D, REFERENCES.md 1.4).
+        // Heinzel's large N (SciPy 1.17.1 at N = 1024 gives -144.0 for HFT144D, in
+        // tests/reference/window_factors.csv).
         assert!(
             (ours - row.psll_db).abs() <= 0.11,
             "{}: {ours:.3} dB vs {}",
@@ -239,8 +244,8 @@ fn amplitude_flatness_matches_heinzel() {
         // Published to 4 decimals: +-0.00005 dB, plus 0.00002 dB for the search grid
         // (1/1000 bin steps on a response whose slope is below 0.02 dB/bin near its extremes).
         // A flat top ripples both ways by nearly the same amount and the sources print the
-        // sign inconsistently (REFERENCES.md section 1.2: "+-0.0065"), so magnitudes are
-        // compared.
+        // sign inconsistently (Heinzel 2002 lists HFT70 as "-0.0065", while its computed
+        // ripple is +-0.0065), so magnitudes are compared.
         assert!(
             (ours.abs() - row.emax_db.abs()).abs() <= 0.00007,
             "{}: {ours} vs {}",
@@ -252,8 +257,9 @@ fn amplitude_flatness_matches_heinzel() {
 
 #[test]
 fn scalloping_factor_is_the_half_bin_response() {
-    // The stored factor is the response at exactly half a bin (REFERENCES.md section 1.4,
-    // column SL, computed with SciPy 1.17.1 in f64; 4 decimals, so +-0.00005 dB).
+    // The stored factor is the response at exactly half a bin (`scalloping_db` in
+    // tests/reference/window_factors.csv, computed with SciPy 1.17.1 in f64; 4 decimals, so
+    // +-0.00005 dB).
     let sl = [
         (Shape::Rectangular, -3.9224),
         (Shape::Hann, -1.4236),

@@ -172,7 +172,8 @@ fn factors_match_numpy() {
         let w = Window::<1024>::try_new(shape).expect("valid");
         let f = w.factors();
         // 1e-8 relative: both are f64 sums of the same 1024 products (1e-13 apart), except
-        // SciPy's flattop, whose coefficients sum to 1.000000003 (REFERENCES.md 1.1).
+        // SciPy's flattop, whose coefficients sum to 1.000000003 (scipy 1.17.1
+        // `windows.flattop` source).
         let rel = |a: f64, b: f64| ((a - b) / b).abs();
         for (what, ours, theirs) in [
             ("coherent_gain", f.coherent_gain, r.coherent_gain),
@@ -222,7 +223,7 @@ fn factors_match_numpy() {
     }
 }
 
-/// The exponential window's added damping (common practice, REFERENCES.md section 5): decay
+/// The exponential window's added damping (common practice): decay
 /// to 1 % over T = 1 s gives sigma = ln(100) / T = 4.605 1/s, and at 100 Hz
 /// delta-zeta = sigma / (2 pi 100) = 0.00733.
 #[test]

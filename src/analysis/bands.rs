@@ -47,8 +47,8 @@ pub struct Band {
 
 impl Band {
     /// The broadband range of machine-vibration severity in velocity for machines above
-    /// 600 r/min, 10 to 1000 Hz (ISO 10816-3 / 20816-3; from memory, REFERENCES.md
-    /// section 4). Machines from 120 to 600 r/min use 2 to 1000 Hz.
+    /// 600 r/min, 10 to 1000 Hz (ISO 10816-3 / 20816-3, from memory; secondary
+    /// summaries agree). Machines from 120 to 600 r/min use 2 to 1000 Hz.
     pub const SEVERITY_10_1000_HZ: Band = Band {
         low_hz: 10.0,
         high_hz: 1000.0,

@@ -10,7 +10,8 @@
 //!    of that tone's lobe or its first sidelobes, not a tone of its own. Two tones a whole
 //!    main-lobe width apart (Hann: 4 lines) are both found. Candidates below the
 //!    floor ([`ToneSearch::floor_rms`], [`ToneSearch::range_db`]) end the search.
-//! 3. **Amplitude** from the *power in a band* (REFERENCES.md §2.1): the sum of the
+//! 3. **Amplitude** from the *power in a band* (scipy 1.17.1 `signal.periodogram`, band sums
+//!    of examples A and B in tests/reference/spectra_examples.csv): the sum of the
 //!    energy-corrected mean squares ([`Spectrum::mean_square`]) of the `2 H + 2` lines
 //!    around the tone (`H`, the first null rounded up, on either side of it, and one line
 //!    more on the far side; a line nearer another tone found is left to that one) is its
@@ -182,12 +183,13 @@ impl ToneSearch {
 ///
 /// * a cosine sum of `K` terms (Hann 2, Blackman 3, Blackman-Harris 4, the 5-term flat tops,
 ///   HFT116D 6, HFT144D 7): `K`, exactly, since every term's response is zero on the lines
-///   from `K` on (REFERENCES.md §1.4 lists the same "1st null");
+///   from `K` on (`first_minimum_bin` in tests/reference/window_factors.csv, scipy 1.17.1 /
+///   numpy 2.4.6 via generate.py, agrees);
 /// * rectangular: 1;
-/// * Kaiser: `sqrt(1 + (beta / pi)^2)`, the null of the continuous window, which §1.4's
-///   computed values match to 0.01 bin;
-/// * Tukey: `1 + alpha`, an upper bound (from 1 for rectangular to 2 for Hann; §1.4 lists
-///   1.06, 1.16, 1.34 for alpha = 0.1, 0.25, 0.5).
+/// * Kaiser: `sqrt(1 + (beta / pi)^2)`, the null of the continuous window, which the first
+///   nulls computed with numpy 2.4.6 / scipy 1.17.1 (exact DTFT) match to 0.01 bin;
+/// * Tukey: `1 + alpha`, an upper bound (from 1 for rectangular to 2 for Hann; the same
+///   computation gives 1.06, 1.16, 1.34 for alpha = 0.1, 0.25, 0.5).
 ///
 /// `None` for the force and exponential windows, made for transients, not tones.
 ///
@@ -456,11 +458,11 @@ mod tests {
     // Tolerances from the measured errors (printed; see the module table) with a margin, and
     // each far tighter than what the peak line alone gives, which the test also checks so
     // that it cannot pass without the method: Hann 1.42 dB and the flat top 0.0098 dB low at
-    // half a bin (REFERENCES.md §1.4 "SL"). Hann: its main lobe holds all but about 1e-4 of
-    // the power at any offset (lines 3 bins out are sidelobes below -31 dB, and their power
-    // falls 18 dB per octave; measured 6e-5 in amplitude), so 2e-4 amplitude and 1e-3 bins.
-    // Flat tops: sidelobes below -90 dB, so only f32 rounding (~1e-7) remains: 1e-5 and
-    // 1e-4 bins.
+    // half a bin (scipy 1.17.1, `scalloping_db` in tests/reference/window_factors.csv).
+    // Hann: its main lobe holds all but about 1e-4 of the power at any offset (lines 3 bins out
+    // are sidelobes below -31 dB, and their power falls 18 dB per octave; measured 6e-5 in
+    // amplitude), so 2e-4 amplitude and 1e-3 bins. Flat tops: sidelobes below -90 dB, so only
+    // f32 rounding (~1e-7) remains: 1e-5 and 1e-4 bins.
     #[test]
     fn single_tones_on_and_between_lines() {
         let cases: [(&Window<N>, f64, f64, &str); 3] = [
@@ -485,7 +487,8 @@ mod tests {
                 );
             }
         }
-        // The peak line alone at half a bin: Hann -1.4236 dB (REFERENCES.md §2.2 example B).
+        // The peak line alone at half a bin: Hann -1.4236 dB (scipy 1.17.1 `signal.periodogram`,
+        // tests/reference/spectra_examples.csv example B).
         let (_, _, line) = single_tone_errors(&HANN, 100.0, 0.5);
         assert!((20.0 * (1.0 + line).log10() + 1.4236).abs() < 0.01);
     }
@@ -501,7 +504,7 @@ mod tests {
     // bins, for the negative-frequency image, whose leakage at these lines is
     // 1/(pi 201) = 1.6e-3 of the tone (rectangular sidelobes fall slowly) and enters each
     // power as a cross term of up to 3e-3. The peak line alone reads 2/pi (-3.92 dB) at half
-    // a bin (REFERENCES.md §1.4).
+    // a bin (20 log10(2/pi), exact; `scalloping_db` in tests/reference/window_factors.csv).
     #[test]
     fn rectangular_window_on_and_between_lines() {
         let (a, f, _) = single_tone_errors(&RECTANGULAR, 100.0, 0.0);
@@ -549,9 +552,10 @@ mod tests {
         // One main-lobe width apart (4.1 bins), the lobes share lines; each line goes to the
         // nearer tone. What each one loses or gains is its neighbour's response beyond the
         // midpoint, 2.05 bins out: Hann's null (at 2) and first sidelobe (-31.5 dB, a power
-        // of 7e-4 per line, REFERENCES.md §1.4), so at most about 1e-3 of the power, 5e-4 of
-        // the amplitude (measured 1.1e-4, and 1e-4 bins): allowed 1e-3 and 0.01 bins. Without
-        // the split, each would take two of the other's lobe lines: 10 % and 0.5 bins off.
+        // of 7e-4 per line; Heinzel, Rüdiger and Schilling 2002, Hann PSLL), so at most about
+        // 1e-3 of the power, 5e-4 of the amplitude (measured 1.1e-4, and 1e-4 bins): allowed
+        // 1e-3 and 0.01 bins. Without the split, each would take two of the other's lobe lines:
+        // 10 % and 0.5 bins off.
         let s = spectrum_of(&HANN, &tones(4 * N, &[(1.0, 60.3), (0.8, 64.4)]));
         let found = strongest_tones::<4, BINS>(&s, &search.with_range_db(30.0)).unwrap();
         for t in &found {
@@ -589,15 +593,15 @@ mod tests {
 
     // reference: analytic truth for the tone; white noise of variance sigma^2 adds, on
     // average, `2 sigma^2 / N` of mean square per line (one-sided, energy-corrected:
-    // REFERENCES.md §2.2 example C), so the 6 lines summed for a Hann tone read
-    // `A^2/2 + 12 sigma^2 / N` on average: with sigma = 0.1, A = 1 and N = 1024, +1.2e-4 in
-    // amplitude. The larger effect is random: the tone x noise cross term, whose standard
-    // deviation is about `2 sqrt(P_line / P_tone)` of the tone's power per block (P_line =
-    // 2e-5, P_tone = 0.5: 1.3e-2), over 16 blocks 3.2e-3 in power, 1.6e-3 in amplitude.
-    // Tolerance 5e-3 in amplitude (3 standard deviations) and 0.01 bins in frequency. The
-    // noise's own local maxima sit about 44 dB under the tone (10 log10(0.5 / 2e-5)), so
-    // with a range of 30 dB they are not reported, and with no range they are, but never
-    // within a main-lobe width of the tone.
+    // scipy 1.17.1 `signal.welch`, tests/reference/spectra_examples.csv example C), so the 6
+    // lines summed for a Hann tone read `A^2/2 + 12 sigma^2 / N` on average: with sigma = 0.1,
+    // A = 1 and N = 1024, +1.2e-4 in amplitude. The larger effect is random: the tone x noise
+    // cross term, whose standard deviation is about `2 sqrt(P_line / P_tone)` of the tone's
+    // power per block (P_line = 2e-5, P_tone = 0.5: 1.3e-2), over 16 blocks 3.2e-3 in power,
+    // 1.6e-3 in amplitude. Tolerance 5e-3 in amplitude (3 standard deviations) and 0.01 bins in
+    // frequency. The noise's own local maxima sit about 44 dB under the tone (10 log10(0.5 /
+    // 2e-5)), so with a range of 30 dB they are not reported, and with no range they are, but
+    // never within a main-lobe width of the tone.
     #[test]
     fn tone_next_to_noise() {
         let len = 16 * N;
@@ -687,7 +691,8 @@ mod tests {
             .is_empty());
     }
 
-    // reference: REFERENCES.md §1.4 "1st null" (lib: exact DTFT with root finding).
+    // reference: `first_minimum_bin` in tests/reference/window_factors.csv (numpy 2.4.6 /
+    // scipy 1.17.1, computed by tests/reference/generate.py).
     #[test]
     fn first_nulls_match_the_computed_table() {
         let table = [

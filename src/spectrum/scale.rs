@@ -422,8 +422,9 @@ impl<const BINS: usize> Spectrum<BINS> {
     /// Line `bin` as an energy-corrected mean square (units^2), whatever this spectrum's own
     /// scale: [`Scale::Power`] with [`Correction::Energy`], through [`rescale`]. Summed over
     /// lines it is the power in that band, independent of the window and of where a tone
-    /// falls between lines while its main lobe stays inside (REFERENCES.md §2.1). `None`
-    /// beyond Nyquist.
+    /// falls between lines while its main lobe stays inside (scipy 1.17.1
+    /// `signal.periodogram`, band sums of examples A and B in
+    /// tests/reference/spectra_examples.csv). `None` beyond Nyquist.
     ///
     /// ```
     /// use leakless::{Correction, Scale, Shape, Spectrum, SpectrumInfo, Window};
@@ -520,7 +521,8 @@ mod tests {
         assert!(s.values().iter().all(|v| v.is_nan()));
     }
 
-    // reference: scipy 1.17.1 periodogram, REFERENCES.md §2.2 example A (Hann, N = 1024,
+    // reference: scipy 1.17.1 `signal.periodogram`, tests/reference/spectra_examples.csv
+    // example A (Hann, N = 1024,
     // fs = 1024 Hz, A = 1 on bin 100): spectrum 0.5, density 1/3, corrected peak 1.0.
     #[test]
     fn example_a_levels_from_squared_magnitude() {
@@ -544,7 +546,8 @@ mod tests {
         assert!((asd.values()[100] - (1.0f32 / 3.0).sqrt()).abs() < 1e-6);
     }
 
-    // reference: scipy 1.17.1, REFERENCES.md §2.2 example D: DC and Nyquist are not doubled
+    // reference: scipy 1.17.1 `signal.periodogram`, tests/reference/spectra_examples.csv
+    // example D: DC and Nyquist are not doubled
     // (boxcar, 'spectrum': DC 0.3 reads 0.09, a unit cosine at fs/2 reads 1.0).
     #[test]
     fn edges_are_not_doubled() {

@@ -377,14 +377,15 @@ pub fn welch_cases() -> (Vec<f32>, Vec<SpectrumCase>) {
     (spectra_input(), out)
 }
 
-/// One row of `spectra_examples.csv` (REFERENCES.md section 2.2, recomputed).
+/// One row of `spectra_examples.csv` (scipy 1.17.1 / numpy 2.4.6 worked examples A-D, computed
+/// by tests/reference/generate.py).
 #[derive(Clone, Debug)]
 pub struct SpectrumExample {
     /// `"A"` .. `"D"`.
     pub example: String,
     pub quantity: String,
     pub value: f64,
-    /// The figure as printed in REFERENCES.md.
+    /// The figure as first computed and rounded for print (scipy 1.17.1), as text.
     pub printed: String,
 }
 

