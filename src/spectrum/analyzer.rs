@@ -100,16 +100,7 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
             assert!(is_supported(N), "N must be a power of two from 64 to 4096");
             assert!(BINS == N / 2 + 1, "BINS must be N/2 + 1");
         }
-        if !(config.sample_rate_hz.is_finite() && config.sample_rate_hz > 0.0) {
-            return Err(ConfigError::SampleRate);
-        }
-        // Every level divides by the window's sums; a user cosine sum can make them (nearly)
-        // zero. Real windows have a coherent gain above 0.05.
-        let factors = window.factors();
-        if !(factors.coherent_gain > 1e-6 && factors.mean_square_gain > 1e-12) {
-            return Err(ConfigError::WindowParameter);
-        }
-        let overlap = config.overlap.samples(N)?;
+        let overlap = config.validate(N, window.factors())?;
         let framer = Framer::new(overlap)?;
         let averager = Averager::new(config.averaging)?;
         let conditioning = Conditioning::new(

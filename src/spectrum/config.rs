@@ -6,6 +6,7 @@
 use crate::error::ConfigError;
 use crate::spectrum::average::{Averaging, WhenDone};
 use crate::spectrum::condition::{Detrend, OverloadPolicy};
+use crate::window::Factors;
 
 /// The overlap between consecutive blocks.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -143,6 +144,21 @@ impl Config {
     pub const fn with_overload_policy(mut self, overload: OverloadPolicy) -> Self {
         self.overload = overload;
         self
+    }
+
+    /// The checks every analyzer makes at construction, in this order: the sample rate, a
+    /// window whose levels can be corrected ([`Factors::can_correct`]), the overlap (returned
+    /// in samples for blocks of `block_len`), and the averaging.
+    pub fn validate(&self, block_len: usize, window: &Factors) -> Result<usize, ConfigError> {
+        if !(self.sample_rate_hz.is_finite() && self.sample_rate_hz > 0.0) {
+            return Err(ConfigError::SampleRate);
+        }
+        if !window.can_correct() {
+            return Err(ConfigError::WindowParameter);
+        }
+        let overlap = self.overlap.samples(block_len)?;
+        self.averaging.validate()?;
+        Ok(overlap)
     }
 }
 

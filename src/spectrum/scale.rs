@@ -223,7 +223,7 @@ pub struct SpectrumInfo {
 impl SpectrumInfo {
     /// Whether this describes `BINS` one-sided lines that levels can be computed for: an even
     /// block of at least 2 samples with `BINS = N/2 + 1`, a finite positive sample rate, and
-    /// window sums a correction can divide by (the test [`crate::Analyzer::new`] applies).
+    /// window sums a correction can divide by ([`Factors::can_correct`]).
     pub fn check<const BINS: usize>(&self) -> Result<(), ConfigError> {
         if self.block_len < 2 || self.block_len % 2 != 0 || self.block_len / 2 + 1 != BINS {
             return Err(ConfigError::BinCount {
@@ -234,7 +234,7 @@ impl SpectrumInfo {
         if !(self.sample_rate_hz.is_finite() && self.sample_rate_hz > 0.0) {
             return Err(ConfigError::SampleRate);
         }
-        if !(self.factors.coherent_gain > 1e-6 && self.factors.mean_square_gain > 1e-12) {
+        if !self.factors.can_correct() {
             return Err(ConfigError::WindowParameter);
         }
         Ok(())

@@ -110,8 +110,15 @@ impl Factors {
         }
     }
 
+    /// Whether levels can be corrected for this window: every correction divides by its
+    /// sums, and a user cosine sum can make them (nearly) zero. Real windows have a coherent
+    /// gain above 0.05; the bound is 1e-6 (and 1e-12 on the mean-square gain).
+    pub const fn can_correct(&self) -> bool {
+        self.coherent_gain > 1e-6 && self.mean_square_gain > 1e-12
+    }
+
     /// Equivalent noise bandwidth in Hz for a block sampled at `sample_rate_hz`:
-    /// `enbw_bins * sample_rate_hz / N`.
+    /// `enbw_bins * sample_rate_hz / N` (infinite for `block_len` 0).
     pub fn enbw_hz(&self, sample_rate_hz: f64, block_len: usize) -> f64 {
         self.enbw_bins * sample_rate_hz / block_len as f64
     }

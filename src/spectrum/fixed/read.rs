@@ -65,16 +65,8 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
             );
             assert!(BINS == N / 2 + 1, "BINS must be N/2 + 1");
         }
-        if !(config.sample_rate_hz.is_finite() && config.sample_rate_hz > 0.0) {
-            return Err(ConfigError::SampleRate);
-        }
-        let factors = window.window_factors();
-        if !(factors.coherent_gain > 1e-6 && factors.mean_square_gain > 1e-12) {
-            return Err(ConfigError::WindowParameter);
-        }
-        let overlap = config.overlap.samples(N)?;
+        let overlap = config.validate(N, window.window_factors())?;
         let framer = Framer::new(overlap)?;
-        config.averaging.validate()?;
         let (reciprocal_mantissa, reciprocal_shift) = match config.averaging {
             crate::Averaging::Exponential {
                 time_constant_blocks,
