@@ -35,12 +35,18 @@ fn signal(len: usize, fs: f64, amplitude: f64, frequency_hz: f64) -> Vec<f64> {
         .collect()
 }
 
-fn write_wav_i16(path: &Path, fs: u32, samples: &[i16]) {
+/// A mono WAV of `samples`: 16-bit PCM for `i16`, 32-bit float for `f32`.
+fn write_wav<S: hound::Sample + Copy>(
+    path: &Path,
+    fs: u32,
+    samples: &[S],
+    format: hound::SampleFormat,
+) {
     let spec = hound::WavSpec {
         channels: 1,
         sample_rate: fs,
-        bits_per_sample: 16,
-        sample_format: hound::SampleFormat::Int,
+        bits_per_sample: (std::mem::size_of::<S>() * 8) as u16,
+        sample_format: format,
     };
     let mut w = hound::WavWriter::create(path, spec).unwrap();
     for &s in samples {
@@ -49,18 +55,12 @@ fn write_wav_i16(path: &Path, fs: u32, samples: &[i16]) {
     w.finalize().unwrap();
 }
 
+fn write_wav_i16(path: &Path, fs: u32, samples: &[i16]) {
+    write_wav(path, fs, samples, hound::SampleFormat::Int);
+}
+
 fn write_wav_f32(path: &Path, fs: u32, samples: &[f32]) {
-    let spec = hound::WavSpec {
-        channels: 1,
-        sample_rate: fs,
-        bits_per_sample: 32,
-        sample_format: hound::SampleFormat::Float,
-    };
-    let mut w = hound::WavWriter::create(path, spec).unwrap();
-    for &s in samples {
-        w.write_sample(s).unwrap();
-    }
-    w.finalize().unwrap();
+    write_wav(path, fs, samples, hound::SampleFormat::Float);
 }
 
 /// Runs the CLI core in process: (exit code, stdout, stderr).

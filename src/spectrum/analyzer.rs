@@ -5,7 +5,7 @@ use crate::fft::float::{is_supported, rfft};
 use crate::spectrum::average::Averager;
 use crate::spectrum::condition::Conditioning;
 use crate::spectrum::frame::Framer;
-use crate::spectrum::scale::{Correction, LineGains, Scale, Spectrum, SpectrumInfo};
+use crate::spectrum::scale::{overall_rms_of_sums, Correction, Scale, Spectrum, SpectrumInfo};
 use crate::window::Window;
 
 pub use crate::spectrum::config::{Config, Overlap, PushReport, Stage, Status};
@@ -236,24 +236,11 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
     /// Overall RMS level in engineering units from the averaged power (Parseval: the sum of
     /// the energy-corrected power over all lines), with or without the DC line.
     pub fn overall_rms(&self, include_dc: bool) -> f32 {
-        let gain = self.squares_gain();
-        if gain == 0.0 {
-            return 0.0;
-        }
-        let info = self.info();
-        let to = LineGains::of(
-            Scale::Power,
-            Correction::Energy,
-            &info.factors,
-            info.sample_rate_hz,
-            N,
-        );
         let squares = self.averager.squares();
         let interior: f32 = squares[1..BINS - 1].iter().sum();
         let dc = if include_dc { squares[0] } else { 0.0 };
-        let power =
-            (interior as f64 * to.interior + (dc + squares[BINS - 1]) as f64 * to.edge) / gain;
-        libm::sqrt(power) as f32
+        let edges = (dc + squares[BINS - 1]) as f64;
+        overall_rms_of_sums(interior as f64, edges, self.squares_gain(), &self.info())
     }
 
     /// `squares[k] = gain * mean |X[k]|^2` in engineering units^2.

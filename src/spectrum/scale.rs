@@ -203,6 +203,29 @@ impl<const BINS: usize> MeanSquares<'_, BINS> {
     }
 }
 
+/// Overall RMS (Parseval) in engineering units from accumulated squared magnitudes
+/// `gain * |X[k]|^2`, summed by the caller over the interior lines and over the edge lines
+/// (DC, if wanted, and Nyquist): the energy-corrected power of every analyzer's
+/// `overall_rms`, whatever its accumulator's representation. 0 when nothing was accumulated.
+pub(crate) fn overall_rms_of_sums(
+    interior: f64,
+    edges: f64,
+    gain: f64,
+    info: &SpectrumInfo,
+) -> f32 {
+    if gain == 0.0 {
+        return 0.0;
+    }
+    let to = LineGains::of(
+        Scale::Power,
+        Correction::Energy,
+        &info.factors,
+        info.sample_rate_hz,
+        info.block_len,
+    );
+    libm::sqrt((interior * to.interior + edges * to.edge) / gain) as f32
+}
+
 /// What a spectrum needs to know besides its values.
 #[derive(Clone, Copy, Debug, PartialEq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]

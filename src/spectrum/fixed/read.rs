@@ -10,7 +10,9 @@ use crate::fft::fixed::{MAX_LEN, MIN_LEN};
 use crate::spectrum::condition::Conditioning;
 use crate::spectrum::config::{Config, Status};
 use crate::spectrum::frame::Framer;
-use crate::spectrum::scale::{Correction, LineGains, Scale, Spectrum, SpectrumInfo};
+use crate::spectrum::scale::{
+    overall_rms_of_sums, Correction, LineGains, Scale, Spectrum, SpectrumInfo,
+};
 
 /// The averaged power as the analyzer holds it: line `k`'s mean `|X[k]|^2` in input units
 /// (counts squared, before any window correction or one-sided fold) is
@@ -185,24 +187,12 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
     /// the energy-corrected power over all lines), with or without the DC line.
     pub fn overall_rms(&self, include_dc: bool) -> f32 {
         let bits = self.average.peak_bits() as i32;
-        let gain = self.squares_gain(bits);
-        if gain == 0.0 {
-            return 0.0;
-        }
-        let info = self.info();
-        let to = LineGains::of(
-            Scale::Power,
-            Correction::Energy,
-            &info.factors,
-            info.sample_rate_hz,
-            N,
-        );
         let unit = libm::ldexp(1.0, -bits);
         let m = self.average.mantissas();
         let interior: f64 = m[1..BINS - 1].iter().map(|&v| v as f64 * unit).sum();
         let dc = if include_dc { m[0] as f64 * unit } else { 0.0 };
         let edges = dc + m[BINS - 1] as f64 * unit;
-        libm::sqrt((interior * to.interior + edges * to.edge) / gain) as f32
+        overall_rms_of_sums(interior, edges, self.squares_gain(bits), &self.info())
     }
 
     /// What a spectrum read now knows besides its values.
