@@ -41,6 +41,7 @@
 //! | `std` | no | host helpers only; the core never needs it |
 //! | `demo` | no | [`demo`]: an invented pump-set signal generator for the demo programs and firmware |
 //! | `report` | no | [`report`]: the compact radio summary, encoded and decoded with serde + postcard (no `alloc`) |
+//! | `cli` | no | the `leakless` host command (`src/bin/leakless/`); host only, never needed by the core |
 //!
 //! Without any feature the crate still has [`analysis::envelope::EnvelopeDetector`] and
 //! [`analysis::stats::Statistics`]; the envelope's `EnvelopeAnalyzer` needs `f32`.
