@@ -201,11 +201,13 @@ impl CountSample for i32 {
 /// ```
 /// use leakless::analysis::bands::Band;
 /// use leakless::analysis::levels::{LevelConfig, LevelMeterFixed};
+/// use leakless::units::Sensitivity;
 ///
 /// let fs = 25_600.0;
 /// let config = LevelConfig::new(fs, Band::SEVERITY_10_1000_HZ)
 ///     .unwrap()
-///     .with_sensitivity(9.806_65 / 3276.8) // counts -> m/s^2 (100 mV/g, +-10 V on 16 bits)
+///     // counts -> m/s^2: 100 mV/g through +-10 V on 16 bits
+///     .with_sensitivity(Sensitivity::MillivoltsPerG(100.0).m_s2_per_count(10.0 / 32_768.0))
 ///     .with_full_scale(32_767.0);
 /// let mut meter = LevelMeterFixed::<i16>::new(config).unwrap();
 /// let counts: Vec<i16> = (0..3 * 25_600)
@@ -213,8 +215,9 @@ impl CountSample for i32 {
 ///     .collect();
 /// meter.push_counts(&counts);
 /// let v = meter.latest().unwrap().velocity;
-/// // 1 g peak at 159.155 Hz is 9.807 mm/s peak, 6.93 mm/s rms (the band-pass reads 0.9993).
-/// assert!((v.rms / 0.006_934 - 1.0).abs() < 0.005);
+/// // 10 g peak (3276.8 counts) at 159.155 Hz is 98.07 mm/s peak, 69.34 mm/s rms (the
+/// // band-pass reads 0.9993 there).
+/// assert!((v.rms / 0.069_34 - 1.0).abs() < 0.005);
 /// ```
 #[derive(Clone, Debug, PartialEq)]
 pub struct LevelMeterFixed<S: CountSample> {

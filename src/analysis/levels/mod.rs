@@ -71,12 +71,13 @@
 //! ```
 //! use leakless::analysis::bands::Band;
 //! use leakless::analysis::levels::{LevelConfig, LevelMeter};
+//! use leakless::units::Sensitivity;
 //!
 //! let fs = 25_600.0;
 //! let config = LevelConfig::new(fs, Band::SEVERITY_10_1000_HZ)
 //!     .unwrap()
 //!     .with_interval_samples(25_600) // one reading a second
-//!     .with_sensitivity(9.806_65 / 0.1); // volts -> m/s^2 (100 mV/g)
+//!     .with_sensitivity(Sensitivity::MillivoltsPerG(100.0).m_s2_per_volt()); // volts -> m/s^2
 //! let mut meter = LevelMeter::new(config).unwrap();
 //! // 10 mV peak (0.1 g) at 100 Hz, pushed in DMA-sized pieces.
 //! let volts: Vec<f32> = (0..3 * 25_600)
