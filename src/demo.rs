@@ -118,8 +118,7 @@ pub const DRIVE_END_BEARING: BearingGeometry = match BearingGeometry::new(9, 12.
 };
 /// Accelerometer sensitivity, V per g.
 pub const SENSITIVITY_V_PER_G: f64 = 0.100;
-/// Standard gravity, m/s^2 per g (the defined value).
-pub const STANDARD_GRAVITY_M_S2: f64 = 9.80665;
+pub use crate::units::STANDARD_GRAVITY_M_S2;
 /// Sample rate of the converter, Hz.
 pub const SAMPLE_RATE_HZ: f64 = 25_600.0;
 /// Default converter span: +-2.5 V.

@@ -44,7 +44,10 @@
 //! | `cli` | no | the `leakless` host command (`src/bin/leakless/`); host only, never needed by the core |
 //!
 //! Without any feature the crate still has [`analysis::envelope::EnvelopeDetector`] and
-//! [`analysis::stats::Statistics`]; the envelope's `EnvelopeAnalyzer` needs `f32`.
+//! [`analysis::stats::Statistics`] and the time-domain overall level meters
+//! ([`analysis::levels`]); the envelope's `EnvelopeAnalyzer` needs `f32`. [`units`] holds the
+//! sensitivity and unit conversions (mV/g, g and m/s^2, in/s and mm/s, mils and micrometres,
+//! peak, peak-to-peak and RMS).
 #![cfg_attr(not(test), no_std)]
 #![forbid(unsafe_code)]
 #![deny(missing_docs)]
@@ -64,6 +67,7 @@ pub mod math;
 #[cfg(feature = "report")]
 pub mod report;
 pub mod spectrum;
+pub mod units;
 pub mod window;
 
 pub use analysis::bearing::{BearingGeometry, DefectFrequencies, DefectOrders};

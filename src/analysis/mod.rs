@@ -3,5 +3,6 @@
 pub mod bands;
 pub mod bearing;
 pub mod envelope;
+pub mod levels;
 pub mod peaks;
 pub mod stats;

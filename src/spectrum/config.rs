@@ -51,7 +51,7 @@ impl Overlap {
 /// let config = Config::new(25_600.0)
 ///     .with_overlap_fraction(0.5)
 ///     .with_averaging(Averaging::Linear { count: 16, when_done: WhenDone::Restart })
-///     .with_sensitivity(9.80665 / 16_384.0) // counts to m/s^2 (a +-2 g, 16-bit sensor)
+///     .with_sensitivity(leakless::units::g_to_m_s2(1.0 / 16_384.0)) // counts to m/s^2 (+-2 g, 16 bits)
 ///     .with_full_scale(32_767.0) // counts
 ///     .with_unit("m/s^2");
 /// assert_eq!(config.detrend, Detrend::Mean);

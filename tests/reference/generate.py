@@ -650,6 +650,7 @@ def gen_examples(out):
 
 
 PARTS["examples"] = gen_examples
+PARTS["levels"] = lambda out: __import__("gen_levels").gen_levels(out, write_csv, f64)  # tests/reference/gen_levels.py
 
 
 # ---------------------------------------------------------------------------------------------
