@@ -114,6 +114,8 @@ enum Path<const N: usize, const BINS: usize> {
 pub struct Engine<const N: usize, const BINS: usize> {
     path: Path<N, BINS>,
     encoding: Encoding,
+    /// Full scale per PCM code, `2^-(bits-1)` (1 for float input).
+    per_code: f32,
     /// Bits of the codes pushed when the path quantises (`None`: the file's own values).
     quantise_to: Option<u32>,
     clipped: u64,
@@ -162,7 +164,15 @@ impl<const N: usize, const BINS: usize> Engine<N, BINS> {
                     Window::try_new(analysis.shape).map_err(window_error)?,
                 ));
                 let config = match encoding {
-                    Encoding::Pcm { bits } => counts_config(base, gain, bits as u32),
+                    Encoding::Pcm { bits: 16 } => counts_config(base, gain, 16),
+                    // Other widths go in as fractions of full scale (an exact power-of-two
+                    // scaling): 2^-31 per count of 32-bit PCM is below the sensitivity range.
+                    Encoding::Pcm { bits } => {
+                        let full = (1u64 << (bits - 1)) as f32;
+                        base.with_sensitivity(gain)
+                            .with_full_scale((full - 1.0) / full)
+                            .with_overload_policy(OverloadPolicy::Average)
+                    }
                     Encoding::Float | Encoding::Text => base.with_sensitivity(gain),
                 };
                 let analyzer = Analyzer::new(window, config).map_err(window_error)?;
@@ -185,17 +195,25 @@ impl<const N: usize, const BINS: usize> Engine<N, BINS> {
                         .map_err(window_error)?,
                 ));
                 let (config, quantise_to) = match encoding {
-                    Encoding::Pcm { bits } => (counts_config(base, gain, bits as u32), None),
-                    // A 24-bit converter's codes.
-                    Encoding::Float | Encoding::Text => (counts_config(base, gain, 24), Some(24)),
+                    Encoding::Pcm {
+                        bits: bits @ (8 | 16 | 24),
+                    } => (counts_config(base, gain, bits as u32), None),
+                    // A 24-bit converter's codes: float input, and 32-bit PCM, whose 2^-31 per
+                    // count is below the sensitivity range.
+                    _ => (counts_config(base, gain, 24), Some(24)),
                 };
                 let analyzer = AnalyzerQ31::new(window, config).map_err(window_error)?;
                 (Path::Q31(analyzer), quantise_to)
             }
         };
+        let per_code = match encoding {
+            Encoding::Pcm { bits } => 1.0 / (1u64 << (bits - 1)) as f32,
+            Encoding::Float | Encoding::Text => 1.0,
+        };
         Ok(Self {
             path,
             encoding,
+            per_code,
             quantise_to,
             clipped: 0,
             samples_pushed: 0,
@@ -216,10 +234,12 @@ impl<const N: usize, const BINS: usize> Engine<N, BINS> {
                 self.counts16.extend(codes.iter().map(|&c| c as i16));
                 a.push_counts(&self.counts16)
             }
-            // Other widths: the codes as floats (exact up to 24 bits).
+            // Other widths: fractions of full scale (exact up to 24 bits).
             (Path::F32(a), Chunk::Pcm(codes)) => {
+                let per_code = self.per_code;
                 self.floats.clear();
-                self.floats.extend(codes.iter().map(|&c| c as f32));
+                self.floats
+                    .extend(codes.iter().map(|&c| c as f32 * per_code));
                 a.push(&self.floats)
             }
             (Path::F32(a), Chunk::Float(values)) => a.push(values),
@@ -243,7 +263,7 @@ impl<const N: usize, const BINS: usize> Engine<N, BINS> {
                 self.counts16.extend(codes.iter().map(|&c| c as i16));
                 a.push_counts(&self.counts16)
             }
-            (Path::Q31(a), Chunk::Pcm(codes)) => a.push(codes),
+            (Path::Q31(a), Chunk::Pcm(codes)) if self.quantise_to.is_none() => a.push(codes),
             (Path::Q31(a), chunk) => {
                 self.codes32.clear();
                 let start = self.samples_pushed;

@@ -135,7 +135,8 @@ impl Recording {
     /// Calls `f` with every chunk in turn, with a progress bar on standard error when it is a
     /// terminal and the recording is long (over a million frames).
     pub fn stream(&mut self, mut f: impl FnMut(&Chunk<'_>) -> Outcome<()>) -> Outcome<()> {
-        let bar = if self.frames > 1_000_000 {
+        use std::io::IsTerminal;
+        let bar = if self.frames > 1_000_000 && std::io::stderr().is_terminal() {
             let bar = indicatif::ProgressBar::new(self.frames);
             if let Ok(style) = indicatif::ProgressStyle::with_template(
                 "{prefix} [{bar:40}] {percent:>3}% {eta} left",
@@ -204,7 +205,7 @@ impl Recording {
                         Ok(())
                     }),
                 };
-                result.map_err(|e| wav_error(&self.path, e))?;
+                result.map_err(|e| wav_error(&self.path, e, Part::Data))?;
             }
             Reader::Csv(csv) => csv.next_chunk(&mut self.float)?,
         }
@@ -234,17 +235,44 @@ impl<R: Read> Read for Counting<R> {
     }
 }
 
-fn wav_error(path: &Path, error: hound::Error) -> Failure {
+/// Where in the file an error happened: the header or the samples.
+#[derive(Clone, Copy, PartialEq, Eq)]
+enum Part {
+    Header,
+    Data,
+}
+
+fn wav_error(path: &Path, error: hound::Error, part: Part) -> Failure {
     match error {
-        hound::Error::IoError(e) if e.kind() == std::io::ErrorKind::UnexpectedEof => Failure::file(
-            path,
-            "the file ends before its data does (truncated, e.g. an interrupted recording); \
-             re-export it or cut it to its whole frames",
-        ),
+        // Any read error in the header (the file was opened already) means it ends early.
+        hound::Error::IoError(e)
+            if part == Part::Header || e.kind() == std::io::ErrorKind::UnexpectedEof =>
+        {
+            Failure::file(
+                path,
+                match part {
+                    Part::Header => {
+                        "the file ends inside its WAV header (truncated, or not a WAV file); \
+                         re-export it"
+                    }
+                    Part::Data => {
+                        "the file ends before its data does (truncated, e.g. an interrupted \
+                         recording); re-export it or cut it to its whole frames"
+                    }
+                },
+            )
+        }
         hound::Error::IoError(e) => Failure::io(path, &e),
+        hound::Error::FormatError(reason) if reason.contains("tag") => Failure::file(
+            path,
+            format!("not a WAV file ({reason}); give a WAV or CSV recording"),
+        ),
         hound::Error::FormatError(reason) => Failure::file(
             path,
-            format!("not a WAV file this tool can read ({reason}); export it as PCM or float WAV"),
+            format!(
+                "unsupported WAV layout ({reason}); use 8, 16, 24 or 32-bit integer PCM or \
+                 32-bit float"
+            ),
         ),
         hound::Error::Unsupported => Failure::file(
             path,
@@ -274,7 +302,7 @@ fn open_wav(args: &InputArgs, channels: Channels, file_len: u64) -> Outcome<Reco
         inner: BufReader::new(file),
         count: Rc::clone(&count),
     };
-    let reader = hound::WavReader::new(counting).map_err(|e| wav_error(path, e))?;
+    let reader = hound::WavReader::new(counting).map_err(|e| wav_error(path, e, Part::Header))?;
     let spec = reader.spec();
     let encoding = match (spec.sample_format, spec.bits_per_sample) {
         (hound::SampleFormat::Int, bits @ (8 | 16 | 24 | 32)) => Encoding::Pcm { bits },

@@ -40,19 +40,6 @@ impl Command {
     }
 }
 
-/// Pretty JSON of `value` with a final newline.
-pub fn json_text(value: &impl serde::Serialize) -> failure::Outcome<String> {
-    let mut text = serde_json::to_string_pretty(value)
-        .map_err(|e| failure::Failure::runtime(format!("JSON: {e}")))?;
-    text.push('\n');
-    Ok(text)
-}
-
-/// Prints a note about a run to standard error.
-pub fn note(command: &str, text: &str) {
-    eprintln!("leakless {command}: note: {text}");
-}
-
 fn main() -> ExitCode {
     let cli = match Cli::try_parse() {
         Ok(cli) => cli,

@@ -132,3 +132,16 @@ impl Sink<'_> {
         Ok(())
     }
 }
+
+/// Pretty JSON of `value` with a final newline.
+pub fn json_text(value: &impl serde::Serialize) -> Outcome<String> {
+    let mut text =
+        serde_json::to_string_pretty(value).map_err(|e| Failure::runtime(format!("JSON: {e}")))?;
+    text.push('\n');
+    Ok(text)
+}
+
+/// Prints a note about a run to standard error.
+pub fn note(command: &str, text: &str) {
+    eprintln!("leakless {command}: note: {text}");
+}

@@ -247,11 +247,11 @@ pub fn run(args: &Args) -> Outcome<()> {
     with_block_len!(analysis.block_len, |N, BINS| {
         let run = analyze::<N, BINS>(&analysis, &mut recording)?;
         for note in &run.notes {
-            crate::note("spectrum", note);
+            crate::output::note("spectrum", note);
         }
         let text = match args.format {
             Format::Csv => to_csv(&run.spectrum)?,
-            Format::Json => crate::json_text(&SpectrumDoc {
+            Format::Json => crate::output::json_text(&SpectrumDoc {
                 settings: settings_json(&analysis, &recording, &run),
                 status: status_json(&run.status),
                 averages: run.spectrum.averages(),
