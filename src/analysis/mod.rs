@@ -3,5 +3,6 @@
 pub mod bands;
 pub mod bearing;
 pub mod envelope;
+pub mod frf;
 pub mod peaks;
 pub mod stats;

@@ -15,3 +15,5 @@ pub mod scale;
 pub mod analyzer;
 #[cfg(feature = "fixed")]
 pub mod fixed;
+#[cfg(feature = "f32")]
+pub mod multi;
