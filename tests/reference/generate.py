@@ -650,6 +650,7 @@ def gen_examples(out):
 
 
 PARTS["examples"] = gen_examples
+PARTS["multi"] = lambda out: __import__("gen_multi").gen_multi(out, write_csv, f32, f64)  # multi/
 
 
 # ---------------------------------------------------------------------------------------------
