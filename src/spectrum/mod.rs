@@ -10,6 +10,7 @@ pub mod condition;
 pub mod config;
 pub mod frame;
 pub mod scale;
+pub mod trigger;
 
 #[cfg(feature = "f32")]
 pub mod analyzer;
