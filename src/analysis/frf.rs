@@ -15,7 +15,7 @@
 //! ratios, so the one-sided factor and, for a shared window, the window factors cancel; with
 //! different windows on the two channels (the impact test's force and exponential windows) no
 //! window correction is applied, which is the transient convention: the FRF is the ratio of
-//! the two windowed transforms (see [`crate::analysis::impact`]).
+//! the two windowed transforms (see [`crate::spectrum::impact`]).
 
 /// A complex number in `f64`, for the response estimators.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]

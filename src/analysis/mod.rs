@@ -4,5 +4,6 @@ pub mod bands;
 pub mod bearing;
 pub mod envelope;
 pub mod frf;
+pub mod modes;
 pub mod peaks;
 pub mod stats;

@@ -17,4 +17,6 @@ pub mod analyzer;
 #[cfg(feature = "fixed")]
 pub mod fixed;
 #[cfg(feature = "f32")]
+pub mod impact;
+#[cfg(feature = "f32")]
 pub mod multi;

@@ -374,7 +374,7 @@ impl<const N: usize, const C: usize> HitTrigger<N, C> {
         }
         let threshold = fraction * peak;
         // A NaN counts as a second hit: the block cannot be trusted.
-        let double = samples.any(|f| !(f < threshold));
+        let double = samples.any(|f| f >= threshold || f.is_nan());
         (peak, double)
     }
 }
