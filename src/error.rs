@@ -52,6 +52,13 @@ pub enum ConfigError {
     },
     /// A decimation factor must be in `1 ..= 256` (see `analysis::envelope::MAX_DECIMATION`).
     Decimation,
+    /// A channel pair must name two different channels of the analyzer.
+    ChannelPair,
+    /// Cross spectra average complex values: linear or exponential, not peak hold.
+    CrossAveraging,
+    /// An impact trigger setting is out of range (level finite and > 0, pre-trigger shorter
+    /// than the block, double-hit fraction in `(0, 1]`, channel index below the count).
+    Trigger,
 }
 
 impl fmt::Display for ConfigError {
@@ -83,6 +90,11 @@ impl fmt::Display for ConfigError {
                 "{bins} spectrum lines do not fit a block of {block_len} (need N/2 + 1)"
             ),
             Self::Decimation => f.write_str("decimation factor must be in 1..=256"),
+            Self::ChannelPair => f.write_str("a channel pair must name two different channels"),
+            Self::CrossAveraging => {
+                f.write_str("cross spectra need linear or exponential averaging, not peak hold")
+            }
+            Self::Trigger => f.write_str("impact trigger setting out of range"),
         }
     }
 }

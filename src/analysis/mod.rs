@@ -3,6 +3,8 @@
 pub mod bands;
 pub mod bearing;
 pub mod envelope;
+pub mod frf;
 pub mod levels;
+pub mod modes;
 pub mod peaks;
 pub mod stats;

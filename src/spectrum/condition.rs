@@ -145,6 +145,20 @@ impl Conditioning {
     }
 }
 
+/// The window pass of the float path: `out[n] = (block[n] - offset) w[n]`, detrend and window
+/// in one pass (`offset` from [`BlockCheck::offset`]).
+#[inline]
+pub fn detrend_and_window<const N: usize>(
+    out: &mut [f32; N],
+    block: &[f32; N],
+    offset: f32,
+    window: &[f32; N],
+) {
+    for ((y, &x), &w) in out.iter_mut().zip(block).zip(window) {
+        *y = (x - offset) * w;
+    }
+}
+
 /// Interleaved partial sums in [`Conditioning::inspect`].
 pub const LANES: usize = 8;
 

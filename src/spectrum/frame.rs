@@ -127,6 +127,160 @@ impl<T: Copy + Default, const N: usize> Framer<T, N> {
     }
 }
 
+/// The overlap buffer of `C` channels sampled together: one clock, so every channel's blocks
+/// start on the same sample, and one buffer of `N` samples per channel in which that channel's
+/// block is completed in place (the caller reads the blocks there, no copy).
+///
+/// Samples arrive interleaved (`x0 y0 z0 x1 y1 ...`, as a sensor FIFO delivers them, cut into
+/// chunks anywhere, also inside a frame) or as one slice per channel. Blocks are defined as
+/// for [`Framer`]: block `b` of every channel is its samples `b hop .. b hop + N`.
+///
+/// ```
+/// use leakless::spectrum::frame::ChannelFramer;
+///
+/// let mut framer: ChannelFramer<i16, 2, 2> = ChannelFramer::new(0).unwrap();
+/// let mut input: &[i16] = &[1, 10, 2]; // ends inside the second frame
+/// assert!(framer.next_interleaved(&mut input).is_none());
+/// let mut input: &[i16] = &[20, 3, 30];
+/// assert_eq!(framer.next_interleaved(&mut input), Some(&[[1, 2], [10, 20]]));
+/// assert_eq!(input, &[3, 30]); // the next block starts here
+/// ```
+#[derive(Clone, Debug)]
+pub struct ChannelFramer<T, const N: usize, const C: usize> {
+    pending: [[T; N]; C],
+    /// Complete frames (one sample of every channel) held, `0 ..= N`; `N` means the blocks
+    /// were handed out and the overlap is kept on the next call.
+    len: usize,
+    /// The channel the next interleaved sample belongs to, `0 .. C`.
+    next_channel: usize,
+    overlap: usize,
+}
+
+impl<T: Copy + Default, const N: usize, const C: usize> ChannelFramer<T, N, C> {
+    /// A buffer for `N`-sample blocks of `C` channels overlapping by `overlap` samples
+    /// (`0 ..= N - 1`).
+    pub fn new(overlap: usize) -> Result<Self, ConfigError> {
+        if overlap >= N {
+            return Err(ConfigError::Overlap {
+                overlap,
+                block_len: N,
+            });
+        }
+        Ok(Self {
+            pending: [[T::default(); N]; C],
+            len: 0,
+            next_channel: 0,
+            overlap,
+        })
+    }
+
+    /// The overlap in samples.
+    pub fn overlap(&self) -> usize {
+        self.overlap
+    }
+
+    /// Samples between the starts of consecutive blocks, `N - overlap`.
+    pub fn hop(&self) -> usize {
+        N - self.overlap
+    }
+
+    /// Whole frames held towards the next block (after a block was handed out: all `N`).
+    pub fn buffered(&self) -> usize {
+        self.len
+    }
+
+    /// The channel the next interleaved sample belongs to (0 unless the last interleaved
+    /// chunk ended inside a frame).
+    pub fn next_channel(&self) -> usize {
+        self.next_channel
+    }
+
+    /// Forgets every buffered sample and the interleave phase.
+    pub fn clear(&mut self) {
+        self.len = 0;
+        self.next_channel = 0;
+    }
+
+    /// Keeps the last `overlap` samples of handed-out blocks for the next ones.
+    fn keep_overlap(&mut self) {
+        if self.len == N {
+            let hop = N - self.overlap;
+            for channel in &mut self.pending {
+                channel.copy_within(hop.., 0);
+            }
+            self.len = self.overlap;
+        }
+    }
+
+    /// Takes interleaved samples from the front of `input` until every channel's block is
+    /// complete or `input` is used up. Returns the `C` blocks (one array per channel, oldest
+    /// sample first) when complete, with `input` advanced past what was taken; call it in a
+    /// loop until it returns `None`.
+    pub fn next_interleaved(&mut self, input: &mut &[T]) -> Option<&[[T; N]; C]> {
+        self.keep_overlap();
+        let mut rest = *input;
+        // Finish a frame a previous chunk ended inside of.
+        while self.next_channel != 0 {
+            let Some((&x, tail)) = rest.split_first() else {
+                *input = rest;
+                return None;
+            };
+            self.pending[self.next_channel][self.len] = x;
+            rest = tail;
+            self.next_channel += 1;
+            if self.next_channel == C {
+                self.next_channel = 0;
+                self.len += 1;
+            }
+        }
+        let frames = (rest.len() / C.max(1)).min(N - self.len);
+        let (whole, tail) = rest.split_at(frames * C);
+        for (i, frame) in whole.chunks_exact(C.max(1)).enumerate() {
+            for (channel, &x) in self.pending.iter_mut().zip(frame) {
+                channel[self.len + i] = x;
+            }
+        }
+        self.len += frames;
+        if self.len == N {
+            *input = tail;
+            return Some(&self.pending);
+        }
+        // Fewer than C samples are left: the start of a frame.
+        for (channel, &x) in self.pending.iter_mut().zip(tail) {
+            channel[self.len] = x;
+            self.next_channel += 1;
+        }
+        *input = &[];
+        None
+    }
+
+    /// [`ChannelFramer::next_interleaved`] for one slice per channel, all of the same length
+    /// (the caller checks), starting at frame `*taken` of them; `*taken` is advanced past the
+    /// frames used. Must not be called inside a frame ([`ChannelFramer::next_channel`] 0).
+    pub fn next_channels(
+        &mut self,
+        channels: &[&[T]; C],
+        taken: &mut usize,
+    ) -> Option<&[[T; N]; C]> {
+        self.keep_overlap();
+        let available = channels
+            .first()
+            .map_or(0, |c| c.len().saturating_sub(*taken));
+        let frames = available.min(N - self.len);
+        for (pending, input) in self.pending.iter_mut().zip(channels) {
+            if let (Some(slot), Some(from)) = (
+                pending.get_mut(self.len..self.len + frames),
+                input.get(*taken..*taken + frames),
+            ) {
+                slot.copy_from_slice(from);
+            }
+        }
+        self.len += frames;
+        *taken += frames;
+        (self.len == N).then_some(&self.pending)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -221,5 +375,58 @@ mod tests {
             })
         );
         assert_eq!(Framer::<f32, 4>::new(3).unwrap().hop(), 1);
+    }
+
+    /// Interleaves per-channel streams.
+    fn interleave(channels: &[Vec<u32>]) -> Vec<u32> {
+        let len = channels[0].len();
+        (0..len)
+            .flat_map(|i| channels.iter().map(move |c| c[i]))
+            .collect()
+    }
+
+    // from the definition of overlapped framing (Welch 1967), per channel, on one clock.
+    #[test]
+    fn channel_framer_gives_every_channel_its_defined_blocks() {
+        let channels: Vec<Vec<u32>> = (0..3)
+            .map(|c| (0..60).map(|i| 1000 * c + i).collect())
+            .collect();
+        let stream = interleave(&channels);
+        for overlap in [0, 3, 7] {
+            let want: Vec<Vec<Vec<u32>>> = channels
+                .iter()
+                .map(|c| expected_blocks(c, 8, 8 - overlap))
+                .collect();
+            for chunk in [1, 2, 3, 4, 5, 7, 24, 25, 180] {
+                let mut framer: ChannelFramer<u32, 8, 3> = ChannelFramer::new(overlap).unwrap();
+                let mut got: Vec<Vec<Vec<u32>>> = vec![Vec::new(); 3];
+                for piece in stream.chunks(chunk) {
+                    let mut input = piece;
+                    while let Some(blocks) = framer.next_interleaved(&mut input) {
+                        for (g, b) in got.iter_mut().zip(blocks) {
+                            g.push(b.to_vec());
+                        }
+                    }
+                    assert!(input.is_empty());
+                }
+                assert_eq!(got, want, "overlap {overlap}, chunk {chunk}");
+                // The same through per-channel slices.
+                let mut framer: ChannelFramer<u32, 8, 3> = ChannelFramer::new(overlap).unwrap();
+                let mut per: Vec<Vec<Vec<u32>>> = vec![Vec::new(); 3];
+                let frame_chunk = chunk.div_ceil(3);
+                for start in (0..60).step_by(frame_chunk) {
+                    let end = (start + frame_chunk).min(60);
+                    let slices: [&[u32]; 3] = core::array::from_fn(|c| &channels[c][start..end]);
+                    let mut taken = 0;
+                    while let Some(blocks) = framer.next_channels(&slices, &mut taken) {
+                        for (g, b) in per.iter_mut().zip(blocks) {
+                            g.push(b.to_vec());
+                        }
+                    }
+                    assert_eq!(taken, end - start);
+                }
+                assert_eq!(per, want, "per channel, overlap {overlap}, chunk {chunk}");
+            }
+        }
     }
 }

@@ -10,8 +10,13 @@ pub mod condition;
 pub mod config;
 pub mod frame;
 pub mod scale;
+pub mod trigger;
 
 #[cfg(feature = "f32")]
 pub mod analyzer;
 #[cfg(feature = "fixed")]
 pub mod fixed;
+#[cfg(feature = "f32")]
+pub mod impact;
+#[cfg(feature = "f32")]
+pub mod multi;

@@ -131,6 +131,26 @@ impl LineGains {
     }
 }
 
+impl LineGains {
+    /// The one-sided energy spectral density of a transient, units^2 s/Hz, from `|X[k]|^2`
+    /// of an unscaled DFT: `2 / fs^2` on the interior lines, `1 / fs^2` at DC and Nyquist
+    /// (`X(f) ~ X[k] / fs` is the continuous transform, and `sum ESD * fs / N` is the energy
+    /// `sum x^2 / fs` by Parseval). No window correction: a transient that lies where the
+    /// window is 1 (the force window over the hammer pulse) is not attenuated, and an
+    /// amplitude or energy correction, which restores a *stationary* signal's level from the
+    /// window's average attenuation over the block, would scale it by a meaningless factor
+    /// (x18 for a 5 % force window).
+    pub fn energy_spectral_density(sample_rate_hz: f32) -> Self {
+        let fs = sample_rate_hz as f64;
+        let base = 1.0 / (fs * fs);
+        LineGains {
+            interior: ONE_SIDED * base,
+            edge: base,
+            amplitude: false,
+        }
+    }
+}
+
 /// Converts `values` (`N/2 + 1` lines, DC first) from one set of gains to another. The one
 /// conversion between scales: everything that changes a level goes through it.
 pub fn rescale(values: &mut [f32], from: LineGains, to: LineGains) {

@@ -651,6 +651,7 @@ def gen_examples(out):
 
 PARTS["examples"] = gen_examples
 PARTS["levels"] = lambda out: __import__("gen_levels").gen_levels(out, write_csv, f64)  # tests/reference/gen_levels.py
+PARTS["multi"] = lambda out: __import__("gen_multi").gen_multi(out, write_csv, f32, f64)  # multi/
 
 
 # ---------------------------------------------------------------------------------------------
