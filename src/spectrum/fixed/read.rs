@@ -4,11 +4,12 @@
 #![allow(clippy::float_arithmetic)]
 
 use super::bfp::{bit_length, PowerAverage};
-use super::{FixedAnalyzer, FixedWindow};
+use super::{Blocks, FixedAnalyzer, FixedWindow};
 use crate::error::ConfigError;
 use crate::fft::fixed::{MAX_LEN, MIN_LEN};
 use crate::spectrum::condition::Conditioning;
 use crate::spectrum::config::{Config, Status};
+use crate::spectrum::feed::Framing;
 use crate::spectrum::frame::Framer;
 use crate::spectrum::scale::{
     overall_rms_of_sums, Correction, LineGains, Scale, Spectrum, SpectrumInfo,
@@ -89,17 +90,23 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
             .filter(|&limit| limit <= 4_294_967_296.0)
             .map(|limit| limit as u64);
         Ok(Self {
-            window,
             framer,
-            block: [Default::default(); N],
-            average: PowerAverage::new(config.averaging, reciprocal_mantissa, reciprocal_shift),
-            conditioning,
-            overload_at,
-            config,
-            status: Status::default(),
+            blocks: Blocks {
+                window,
+                block: [Default::default(); N],
+                average: PowerAverage::new(config.averaging, reciprocal_mantissa, reciprocal_shift),
+                conditioning,
+                overload_at,
+                config,
+                status: Status::default(),
+            },
         })
     }
+}
 
+impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize, F: Framing>
+    FixedAnalyzer<'a, W, N, BINS, F>
+{
     /// The current average on `scale` with `correction`, in engineering units: the same
     /// [`Spectrum`] the float analyzer gives (through [`Spectrum::from_squares`]). All zeros,
     /// with `averages() == 0`, before the first accepted block.
@@ -112,9 +119,14 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
     /// [`FixedAnalyzer::spectrum`] into an existing spectrum (no temporary on the stack).
     pub fn read_into(&self, out: &mut Spectrum<BINS>, scale: Scale, correction: Correction) {
         // Normalised by the peak, so every value is at most 1 and the gain carries the range.
-        let bits = self.average.peak_bits() as i32;
+        let bits = self.blocks.average.peak_bits() as i32;
         let unit = libm::ldexpf(1.0, -bits);
-        let lines = self.average.mantissas().iter().map(|&m| m as f32 * unit);
+        let lines = self
+            .blocks
+            .average
+            .mantissas()
+            .iter()
+            .map(|&m| m as f32 * unit);
         out.set_from_square_lines(
             lines,
             self.squares_gain(bits),
@@ -127,12 +139,12 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
     /// `squares[k] = gain * mean |X[k]|^2` (engineering units^2) for mantissas scaled by
     /// `2^-bits`; 0 when nothing is averaged (which reads as zeros).
     fn squares_gain(&self, bits: i32) -> f64 {
-        if self.average.averaged() == 0 || bits == 0 {
+        if self.blocks.average.averaged() == 0 || bits == 0 {
             return 0.0;
         }
-        let s = self.conditioning.sensitivity() as f64;
-        let power_per_unit = libm::ldexp(1.0, self.average.exponent() + bits)
-            / self.average.divisor() as f64
+        let s = self.blocks.conditioning.sensitivity() as f64;
+        let power_per_unit = libm::ldexp(1.0, self.blocks.average.exponent() + bits)
+            / self.blocks.average.divisor() as f64
             * (s * s);
         1.0 / power_per_unit
     }
@@ -152,13 +164,17 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
             info.sample_rate_hz,
             N,
         );
-        let s = self.conditioning.sensitivity() as f64;
-        let common = s * s / self.average.divisor() as f64;
+        let s = self.blocks.conditioning.sensitivity() as f64;
+        let common = s * s / self.blocks.average.divisor() as f64;
         let offset_q16 = |gain: f64| (1000.0 * libm::log10(gain * common) * 65536.0) as i64;
         let (interior, edge) = (offset_q16(gains.interior), offset_q16(gains.edge));
-        let exponent_q16 = (self.average.exponent() as i64) << 16;
-        let nothing = self.average.averaged() == 0;
-        for (k, (level, &m)) in out.iter_mut().zip(self.average.mantissas()).enumerate() {
+        let exponent_q16 = (self.blocks.average.exponent() as i64) << 16;
+        let nothing = self.blocks.average.averaged() == 0;
+        for (k, (level, &m)) in out
+            .iter_mut()
+            .zip(self.blocks.average.mantissas())
+            .enumerate()
+        {
             if m == 0 || nothing {
                 *level = i32::MIN;
                 continue;
@@ -177,18 +193,18 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
     /// The averaged power in its own representation (see [`RawPower`]).
     pub fn raw_power(&self) -> RawPower<'_, BINS> {
         RawPower {
-            mantissas: self.average.mantissas(),
-            exponent: self.average.exponent(),
-            divisor: self.average.divisor(),
+            mantissas: self.blocks.average.mantissas(),
+            exponent: self.blocks.average.exponent(),
+            divisor: self.blocks.average.divisor(),
         }
     }
 
     /// Overall RMS level in engineering units from the averaged power (Parseval: the sum of
     /// the energy-corrected power over all lines), with or without the DC line.
     pub fn overall_rms(&self, include_dc: bool) -> f32 {
-        let bits = self.average.peak_bits() as i32;
+        let bits = self.blocks.average.peak_bits() as i32;
         let unit = libm::ldexp(1.0, -bits);
-        let m = self.average.mantissas();
+        let m = self.blocks.average.mantissas();
         let interior: f64 = m[1..BINS - 1].iter().map(|&v| v as f64 * unit).sum();
         let dc = if include_dc { m[0] as f64 * unit } else { 0.0 };
         let edges = dc + m[BINS - 1] as f64 * unit;
@@ -198,17 +214,17 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
     /// What a spectrum read now knows besides its values.
     pub fn info(&self) -> SpectrumInfo {
         SpectrumInfo {
-            sample_rate_hz: self.config.sample_rate_hz,
+            sample_rate_hz: self.blocks.config.sample_rate_hz,
             block_len: N,
-            factors: *self.window.window_factors(),
-            unit: self.config.unit,
-            averages: self.average.averaged(),
+            factors: *self.blocks.window.window_factors(),
+            unit: self.blocks.config.unit,
+            averages: self.blocks.average.averaged(),
         }
     }
 
     /// Line spacing `fs / N`, Hz.
     pub fn bin_width_hz(&self) -> f32 {
-        self.config.sample_rate_hz / N as f32
+        self.blocks.config.sample_rate_hz / N as f32
     }
 }
 
