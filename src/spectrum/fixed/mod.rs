@@ -71,6 +71,7 @@
 
 mod bfp;
 mod read;
+mod to_f32;
 
 pub use read::RawPower;
 
