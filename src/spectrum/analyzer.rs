@@ -4,9 +4,11 @@ use crate::error::ConfigError;
 use crate::fft::float::{is_supported, rfft};
 use crate::spectrum::average::Averager;
 use crate::spectrum::condition::Conditioning;
+use crate::spectrum::feed::{drain, Collector, Framing, Handoff, Unframed};
 use crate::spectrum::frame::Framer;
 use crate::spectrum::scale::{overall_rms_of_sums, Correction, Scale, Spectrum, SpectrumInfo};
 use crate::window::Window;
+use heapless::spsc::{Consumer, Producer};
 
 pub use crate::spectrum::config::{Config, Overlap, PushReport, Stage, Status};
 
@@ -81,15 +83,26 @@ pub use crate::spectrum::config::{Config, Overlap, PushReport, Stage, Status};
 /// assert!((analyzer.overall_rms(false) - 0.5f32.sqrt()).abs() < 1e-4);
 /// ```
 #[derive(Clone, Debug)]
-pub struct Analyzer<'a, const N: usize, const BINS: usize> {
+pub struct Analyzer<'a, const N: usize, const BINS: usize, F: Framing = Framer<f32, N>> {
+    framer: F,
+    blocks: Blocks<'a, N, BINS>,
+}
+
+/// Everything but the framer: the processing half.
+#[derive(Clone, Debug)]
+struct Blocks<'a, const N: usize, const BINS: usize> {
     window: &'a Window<N>,
-    framer: Framer<f32, N>,
     block: [f32; N],
     averager: Averager<BINS>,
     conditioning: Conditioning,
     config: Config,
     status: Status,
 }
+
+/// The processing side of a split [`Analyzer`] (see [`crate::spectrum::feed`]): fed whole
+/// blocks by [`Analyzer::process_queued`] or [`Analyzer::process_block`], read as any
+/// analyzer. It holds no overlap buffer (`4 N` bytes less than an [`Analyzer`]).
+pub type BlockAnalyzer<'a, const N: usize, const BINS: usize> = Analyzer<'a, N, BINS, Unframed>;
 
 impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
     /// An analyzer over `window` (borrowed: the table stays in flash) with `config`, or the
@@ -110,13 +123,15 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
             config.overload,
         )?;
         Ok(Self {
-            window,
             framer,
-            block: [0.0; N],
-            averager,
-            conditioning,
-            config,
-            status: Status::default(),
+            blocks: Blocks {
+                window,
+                block: [0.0; N],
+                averager,
+                conditioning,
+                config,
+                status: Status::default(),
+            },
         })
     }
 
@@ -133,11 +148,8 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
         // Converted on the way into the block (exact: every i16 is an f32).
         let mut report = PushReport::default();
         let mut input = counts;
-        while self
-            .framer
-            .next_block_converted(&mut input, &mut self.block, f32::from)
-        {
-            report.add(self.process_block(&mut |_| {}));
+        while let Some(block) = self.framer.fill_converted(&mut input, f32::from) {
+            report.add(self.blocks.process(block, &mut |_| {}));
         }
         report
     }
@@ -148,14 +160,170 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
     pub fn push_probed(&mut self, samples: &[f32], probe: &mut impl FnMut(Stage)) -> PushReport {
         let mut report = PushReport::default();
         let mut input = samples;
-        while self.framer.next_block(&mut input, &mut self.block) {
-            report.add(self.process_block(probe));
+        while let Some(block) = self.framer.fill(&mut input) {
+            report.add(self.blocks.process(block, probe));
         }
         report
     }
 
-    /// Runs the pipeline on the block in `self.block`.
-    fn process_block(&mut self, probe: &mut impl FnMut(Stage)) -> PushReport {
+    /// Splits the analyzer into its interrupt side, a [`Collector`] that frames samples and
+    /// hands complete blocks to `producer`, and its processing side, which takes them from
+    /// the queue's consumer in [`Analyzer::process_queued`] (see [`crate::spectrum::feed`]).
+    /// The buffered samples go with the framer; the average and the counters stay.
+    pub fn split<'q, const Q: usize>(
+        self,
+        producer: Producer<'q, Handoff<f32, N>, Q>,
+    ) -> (Collector<'q, f32, N, Q>, BlockAnalyzer<'a, N, BINS>) {
+        let unframed = Unframed::new(self.framer.overlap());
+        (
+            Collector::new(self.framer, producer),
+            Analyzer {
+                framer: unframed,
+                blocks: self.blocks,
+            },
+        )
+    }
+}
+
+impl<'a, const N: usize, const BINS: usize, F: Framing> Analyzer<'a, N, BINS, F> {
+    /// Runs one complete block (`N` samples, oldest first, in input units) through the
+    /// pipeline: the processing half of [`Analyzer::push`], which calls it for every block
+    /// its framer completes.
+    pub fn process_block(&mut self, block: &[f32; N]) -> PushReport {
+        self.blocks.process(block, &mut |_| {})
+    }
+
+    /// [`Analyzer::process_block`] with a stage probe, as [`Analyzer::push_probed`].
+    pub fn process_block_probed(
+        &mut self,
+        block: &[f32; N],
+        probe: &mut impl FnMut(Stage),
+    ) -> PushReport {
+        self.blocks.process(block, probe)
+    }
+
+    /// Processes every block waiting in `consumer` (each read where it lies in the queue),
+    /// counting the blocks its [`Collector`] lost before them. Call it from thread mode or a
+    /// low-priority task; it returns when the queue is empty.
+    pub fn process_queued<const Q: usize>(
+        &mut self,
+        consumer: &mut Consumer<'_, Handoff<f32, N>, Q>,
+    ) -> PushReport {
+        self.process_queued_probed(consumer, &mut |_| {})
+    }
+
+    /// [`Analyzer::process_queued`] with a stage probe.
+    pub fn process_queued_probed<const Q: usize>(
+        &mut self,
+        consumer: &mut Consumer<'_, Handoff<f32, N>, Q>,
+        probe: &mut impl FnMut(Stage),
+    ) -> PushReport {
+        let blocks = &mut self.blocks;
+        drain(consumer, |block, lost| {
+            blocks.status.blocks_lost = blocks.status.blocks_lost.saturating_add(lost);
+            let mut report = blocks.process(block, probe);
+            report.lost = lost;
+            report
+        })
+    }
+
+    /// The current average on `scale` with `correction` (densities are always
+    /// energy-corrected; see [`Correction::effective`]). All zeros, with `averages() == 0`,
+    /// before the first accepted block.
+    pub fn spectrum(&self, scale: Scale, correction: Correction) -> Spectrum<BINS> {
+        Spectrum::from_squares(
+            self.blocks.averager.squares(),
+            self.squares_gain(),
+            scale,
+            correction,
+            self.info(),
+        )
+    }
+
+    /// [`Analyzer::spectrum`] into an existing spectrum (no 2 KB temporary on the stack).
+    pub fn read_into(&self, out: &mut Spectrum<BINS>, scale: Scale, correction: Correction) {
+        out.set_from_squares(
+            self.blocks.averager.squares(),
+            self.squares_gain(),
+            scale,
+            correction,
+            self.info(),
+        );
+    }
+
+    /// Overall RMS level in engineering units from the averaged power (Parseval: the sum of
+    /// the energy-corrected power over all lines), with or without the DC line.
+    pub fn overall_rms(&self, include_dc: bool) -> f32 {
+        let squares = self.blocks.averager.squares();
+        let interior: f32 = squares[1..BINS - 1].iter().sum();
+        let dc = if include_dc { squares[0] } else { 0.0 };
+        let edges = (dc + squares[BINS - 1]) as f64;
+        overall_rms_of_sums(interior as f64, edges, self.squares_gain(), &self.info())
+    }
+
+    /// `squares[k] = gain * mean |X[k]|^2` in engineering units^2.
+    fn squares_gain(&self) -> f64 {
+        let s = self.blocks.conditioning.sensitivity() as f64;
+        self.blocks.averager.gain() / (s * s)
+    }
+
+    fn info(&self) -> SpectrumInfo {
+        SpectrumInfo {
+            sample_rate_hz: self.blocks.config.sample_rate_hz,
+            block_len: N,
+            factors: *self.blocks.window.factors(),
+            unit: self.blocks.config.unit,
+            averages: self.blocks.averager.averaged(),
+        }
+    }
+
+    /// The counters.
+    pub fn status(&self) -> Status {
+        self.blocks.status
+    }
+
+    /// Whether a linear average has all its blocks.
+    pub fn is_done(&self) -> bool {
+        self.blocks.averager.is_done()
+    }
+
+    /// Forgets the buffered samples, the average and the counters.
+    pub fn reset(&mut self) {
+        self.framer.clear();
+        self.blocks.averager.reset();
+        self.blocks.status = Status::default();
+    }
+
+    /// The settings as given.
+    pub fn config(&self) -> &Config {
+        &self.blocks.config
+    }
+
+    /// The window.
+    pub fn window(&self) -> &'a Window<N> {
+        self.blocks.window
+    }
+
+    /// Overlap in samples.
+    pub fn overlap(&self) -> usize {
+        self.framer.overlap()
+    }
+
+    /// Samples between block starts, `N - overlap`.
+    pub fn hop(&self) -> usize {
+        N - self.framer.overlap()
+    }
+
+    /// Line spacing `fs / N`, Hz.
+    pub fn bin_width_hz(&self) -> f32 {
+        self.blocks.config.sample_rate_hz / N as f32
+    }
+}
+
+impl<const N: usize, const BINS: usize> Blocks<'_, N, BINS> {
+    /// Runs the pipeline on `input`: checks and mean, then detrend and window on the way into
+    /// the work block, transform, power into the average.
+    fn process(&mut self, input: &[f32; N], probe: &mut impl FnMut(Stage)) -> PushReport {
         let mut report = PushReport {
             blocks: 1,
             ..PushReport::default()
@@ -164,7 +332,7 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
         status.blocks_seen = status.blocks_seen.saturating_add(1);
 
         probe(Stage::Condition);
-        let check = self.conditioning.inspect(&self.block);
+        let check = self.conditioning.inspect(input);
         if check.non_finite {
             status.rejected_non_finite = status.rejected_non_finite.saturating_add(1);
         }
@@ -184,8 +352,8 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
 
         probe(Stage::Window);
         let offset = check.offset;
-        for (x, w) in self.block.iter_mut().zip(self.window.table()) {
-            *x = (*x - offset) * w;
+        for ((y, &x), w) in self.block.iter_mut().zip(input).zip(self.window.table()) {
+            *y = (x - offset) * w;
         }
 
         probe(Stage::Transform);
@@ -207,97 +375,5 @@ impl<'a, const N: usize, const BINS: usize> Analyzer<'a, N, BINS> {
         }
         probe(Stage::Done);
         report
-    }
-
-    /// The current average on `scale` with `correction` (densities are always
-    /// energy-corrected; see [`Correction::effective`]). All zeros, with `averages() == 0`,
-    /// before the first accepted block.
-    pub fn spectrum(&self, scale: Scale, correction: Correction) -> Spectrum<BINS> {
-        Spectrum::from_squares(
-            self.averager.squares(),
-            self.squares_gain(),
-            scale,
-            correction,
-            self.info(),
-        )
-    }
-
-    /// [`Analyzer::spectrum`] into an existing spectrum (no 2 KB temporary on the stack).
-    pub fn read_into(&self, out: &mut Spectrum<BINS>, scale: Scale, correction: Correction) {
-        out.set_from_squares(
-            self.averager.squares(),
-            self.squares_gain(),
-            scale,
-            correction,
-            self.info(),
-        );
-    }
-
-    /// Overall RMS level in engineering units from the averaged power (Parseval: the sum of
-    /// the energy-corrected power over all lines), with or without the DC line.
-    pub fn overall_rms(&self, include_dc: bool) -> f32 {
-        let squares = self.averager.squares();
-        let interior: f32 = squares[1..BINS - 1].iter().sum();
-        let dc = if include_dc { squares[0] } else { 0.0 };
-        let edges = (dc + squares[BINS - 1]) as f64;
-        overall_rms_of_sums(interior as f64, edges, self.squares_gain(), &self.info())
-    }
-
-    /// `squares[k] = gain * mean |X[k]|^2` in engineering units^2.
-    fn squares_gain(&self) -> f64 {
-        let s = self.conditioning.sensitivity() as f64;
-        self.averager.gain() / (s * s)
-    }
-
-    fn info(&self) -> SpectrumInfo {
-        SpectrumInfo {
-            sample_rate_hz: self.config.sample_rate_hz,
-            block_len: N,
-            factors: *self.window.factors(),
-            unit: self.config.unit,
-            averages: self.averager.averaged(),
-        }
-    }
-
-    /// The counters.
-    pub fn status(&self) -> Status {
-        self.status
-    }
-
-    /// Whether a linear average has all its blocks.
-    pub fn is_done(&self) -> bool {
-        self.averager.is_done()
-    }
-
-    /// Forgets the buffered samples, the average and the counters.
-    pub fn reset(&mut self) {
-        self.framer.clear();
-        self.averager.reset();
-        self.status = Status::default();
-    }
-
-    /// The settings as given.
-    pub fn config(&self) -> &Config {
-        &self.config
-    }
-
-    /// The window.
-    pub fn window(&self) -> &'a Window<N> {
-        self.window
-    }
-
-    /// Overlap in samples.
-    pub fn overlap(&self) -> usize {
-        self.framer.overlap()
-    }
-
-    /// Samples between block starts, `N - overlap`.
-    pub fn hop(&self) -> usize {
-        self.framer.hop()
-    }
-
-    /// Line spacing `fs / N`, Hz.
-    pub fn bin_width_hz(&self) -> f32 {
-        self.config.sample_rate_hz / N as f32
     }
 }

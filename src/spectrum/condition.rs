@@ -118,13 +118,30 @@ impl Conditioning {
     /// The sum runs in [`LANES`] interleaved partial sums, added in a fixed order at the end:
     /// independent sums let the compiler vectorise the loop, and the order depends only on
     /// the block, never on how the stream was chunked.
+    ///
+    /// The usual block is decided by sums alone: with the sum it takes the sum of squares, and
+    /// when that is below `bound^2` (`bound` the smaller of the full scale and
+    /// [`MAX_INPUT_MAGNITUDE`]) no sample can reach the bound, none is NaN or infinite, and
+    /// the block is clean (every rounded square is at most a sum of non-negative terms, and
+    /// rounding is monotone: `|x| >= bound` would give `x^2 >= bound^2` after rounding too).
+    /// Only a block that fails this test, one whose mean square reaches `bound^2 / N`
+    /// (-30 dB re the bound at `N = 1024`) or that holds a bad sample, takes the exact pass
+    /// for the largest magnitude as well. Both passes add in the same order, so the offset
+    /// is the same either way.
     pub fn inspect(&self, block: &[f32]) -> BlockCheck {
-        let (sum, non_finite, overloaded) = match self.full_scale {
-            Some(limit) => scan(block, limit),
-            // No limit: nothing is an overload, not even an infinity.
-            None => {
-                let (sum, non_finite, _) = scan(block, f32::INFINITY);
-                (sum, non_finite, false)
+        let limit = self.full_scale.unwrap_or(f32::INFINITY);
+        let bound = limit.min(MAX_INPUT_MAGNITUDE);
+        let (sum, squares) = sums(block);
+        let (sum, non_finite, overloaded) = if squares < bound * bound {
+            (sum, false, false)
+        } else {
+            match self.full_scale {
+                Some(limit) => scan(block, limit),
+                // No limit: nothing is an overload, not even an infinity.
+                None => {
+                    let (sum, non_finite, _) = scan(block, f32::INFINITY);
+                    (sum, non_finite, false)
+                }
             }
         };
         let offset = match self.detrend {
@@ -185,16 +202,40 @@ fn scan(block: &[f32], limit: f32) -> (f32, bool, bool) {
     }
     let non_finite_sum = sums.iter().any(|s| !s.is_finite());
     let largest = largest.iter().fold(0.0f32, |m, &x| larger(m, x));
-    // Pairwise, in a fixed order.
+    let non_finite = non_finite_sum || out_of_range(largest);
+    (pairwise(sums), non_finite, largest >= limit)
+}
+
+/// Sum and sum of squares of a block, the sum in the same lanes and order as [`scan`]'s.
+#[inline(always)]
+fn sums(block: &[f32]) -> (f32, f32) {
+    let mut sums = [0.0f32; LANES];
+    let mut squares = [0.0f32; LANES];
+    let mut lanes = block.chunks_exact(LANES);
+    for chunk in &mut lanes {
+        for ((sum, square), &x) in sums.iter_mut().zip(&mut squares).zip(chunk) {
+            *sum += x;
+            *square += x * x;
+        }
+    }
+    for ((sum, square), &x) in sums.iter_mut().zip(&mut squares).zip(lanes.remainder()) {
+        *sum += x;
+        *square += x * x;
+    }
+    (pairwise(sums), pairwise(squares))
+}
+
+/// The lanes added pairwise, in a fixed order.
+#[inline(always)]
+fn pairwise(mut lanes: [f32; LANES]) -> f32 {
     let mut width = LANES;
     while width > 1 {
         width /= 2;
         for l in 0..width {
-            sums[l] += sums[l + width];
+            lanes[l] += lanes[l + width];
         }
     }
-    let non_finite = non_finite_sum || out_of_range(largest);
-    (sums[0], non_finite, largest >= limit)
+    lanes[0]
 }
 
 /// `x` if it is larger than `m`, else `m` (so a NaN `x` is skipped). One compare-and-select,
@@ -250,6 +291,42 @@ mod tests {
             Conditioning::new(Detrend::None, 1.0, Some(2.0), OverloadPolicy::Average).unwrap();
         let check = keep.inspect(&[3.0]);
         assert!(check.overloaded && keep.accepts(&check));
+    }
+
+    // The definition: the exact pass alone decides every block the same way, to the bit.
+    #[test]
+    fn the_sum_of_squares_test_agrees_with_the_exact_pass() {
+        let mut seed = 0x1234_5678u32;
+        let mut next = move || {
+            seed ^= seed << 13;
+            seed ^= seed >> 17;
+            seed ^= seed << 5;
+            seed
+        };
+        for full_scale in [None, Some(1.0), Some(32767.0), Some(3e15)] {
+            let c = conditioning(full_scale);
+            for case in 0..400 {
+                let spread = [1e-3f32, 0.02, 0.5, 3.0, 4e4, 1e14, 2e15][case % 7];
+                let mut block = [0.0f32; 64];
+                for x in block.iter_mut() {
+                    *x = (next() as i32 as f32 / 2_147_483_648.0) * spread;
+                }
+                if case % 11 == 0 {
+                    block[(next() % 64) as usize] = [f32::NAN, f32::INFINITY, 1e15][case % 3];
+                }
+                let limit = full_scale.unwrap_or(f32::INFINITY);
+                let (sum, non_finite, over) = scan(&block, limit);
+                let want = BlockCheck {
+                    non_finite,
+                    overloaded: over && full_scale.is_some(),
+                    offset: if non_finite { 0.0 } else { sum / 64.0 },
+                };
+                let got = c.inspect(&block);
+                assert_eq!(got.non_finite, want.non_finite, "{full_scale:?} {case}");
+                assert_eq!(got.overloaded, want.overloaded, "{full_scale:?} {case}");
+                assert_eq!(got.offset.to_bits(), want.offset.to_bits(), "{case}");
+            }
+        }
     }
 
     #[test]

@@ -196,6 +196,9 @@ pub struct PushReport {
     pub ignored: u32,
     /// Linear averages completed.
     pub averages_completed: u32,
+    /// Blocks lost before these, because the processing side had fallen behind an
+    /// interrupt-side [`Collector`](crate::spectrum::feed::Collector) (always 0 for `push`).
+    pub lost: u32,
 }
 
 impl PushReport {
@@ -207,6 +210,7 @@ impl PushReport {
         self.rejected += other.rejected;
         self.ignored += other.ignored;
         self.averages_completed += other.averages_completed;
+        self.lost += other.lost;
     }
 }
 
@@ -229,4 +233,9 @@ pub struct Status {
     pub current_average: u32,
     /// Linear averages completed.
     pub averages_completed: u32,
+    /// Blocks an interrupt-side [`Collector`](crate::spectrum::feed::Collector) completed but
+    /// could not hand over, because the processing side had not freed a queue slot in time
+    /// (overruns, learnt with the next block that did arrive). Never averaged, never spliced:
+    /// the blocks around a lost one are still whole stretches of the stream.
+    pub blocks_lost: u32,
 }

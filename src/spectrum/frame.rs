@@ -28,7 +28,7 @@ use crate::error::ConfigError;
 #[derive(Clone, Debug)]
 pub struct Framer<T, const N: usize> {
     pending: [T; N],
-    /// Samples held, `0 .. N`.
+    /// Samples held, `0 .. N` (`N`: a complete block from [`Framer::fill`], not yet moved on).
     len: usize,
     /// Samples kept from one block for the next, `0 ..= N - 1`.
     overlap: usize,
@@ -60,9 +60,20 @@ impl<T: Copy + Default, const N: usize> Framer<T, N> {
         N - self.overlap
     }
 
-    /// Samples held towards the next block.
+    /// Samples held towards the next block (after [`Framer::fill`] returned a block, that
+    /// block's `N`, until the next call).
     pub fn buffered(&self) -> usize {
         self.len
+    }
+
+    /// After a block handed out by [`Framer::fill`] (it has been read by now): keeps its
+    /// last `overlap` samples for the next one.
+    #[inline(always)]
+    fn settle(&mut self) {
+        if self.len == N {
+            self.pending.copy_within(N - self.overlap.., 0);
+            self.len = self.overlap;
+        }
     }
 
     /// Forgets every buffered sample.
@@ -70,11 +81,54 @@ impl<T: Copy + Default, const N: usize> Framer<T, N> {
         self.len = 0;
     }
 
+    /// Takes samples from the front of `input` into the block being assembled in place, until
+    /// it is complete or `input` is used up, and returns the complete block (oldest sample
+    /// first), to be read before the next call: that call first keeps its last `overlap`
+    /// samples for the next block. `input` is advanced past what was taken. Call it in a loop
+    /// until it returns `None`.
+    ///
+    /// The same blocks as [`Framer::next_block`], with fewer copies: each sample is written
+    /// once on its way in, and only the overlap is moved per block. The two may be mixed on
+    /// one framer.
+    ///
+    /// ```
+    /// use leakless::spectrum::frame::Framer;
+    ///
+    /// let mut framer: Framer<i16, 4> = Framer::new(2).unwrap();
+    /// let mut input: &[i16] = &[1, 2, 3, 4, 5, 6];
+    /// assert_eq!(framer.fill(&mut input), Some(&[1, 2, 3, 4]));
+    /// assert_eq!(framer.fill(&mut input), Some(&[3, 4, 5, 6]));
+    /// assert_eq!(framer.fill(&mut input), None);
+    /// ```
+    pub fn fill(&mut self, input: &mut &[T]) -> Option<&[T; N]> {
+        self.fill_converted(input, |x| x)
+    }
+
+    /// [`Framer::fill`] for input of another sample type, each sample converted by `convert`
+    /// as it is written into the block (converting and framing are one pass).
+    pub fn fill_converted<S: Copy>(
+        &mut self,
+        input: &mut &[S],
+        convert: impl Fn(S) -> T,
+    ) -> Option<&[T; N]> {
+        self.settle();
+        let take = input.len().min(N - self.len);
+        let (taken, rest) = input.split_at(take);
+        *input = rest;
+        let end = self.len + take;
+        for (slot, &x) in self.pending[self.len..end].iter_mut().zip(taken) {
+            *slot = convert(x);
+        }
+        self.len = end;
+        (end == N).then_some(&self.pending)
+    }
+
     /// Takes samples from the front of `input` until a block is complete or `input` is used
     /// up. On a complete block, writes it (oldest sample first) into `block`, keeps its last
     /// `overlap` samples for the next one and returns `true`; `input` is advanced past what
     /// was taken. Call it in a loop until it returns `false`.
     pub fn next_block(&mut self, input: &mut &[T], block: &mut [T; N]) -> bool {
+        self.settle();
         let held = self.len;
         let wanted = N - held;
         if input.len() < wanted {
@@ -103,6 +157,7 @@ impl<T: Copy + Default, const N: usize> Framer<T, N> {
         block: &mut [T; N],
         convert: impl Fn(S) -> T,
     ) -> bool {
+        self.settle();
         let held = self.len;
         let wanted = N - held;
         if input.len() < wanted {
@@ -348,6 +403,34 @@ mod tests {
                     assert!(input.is_empty());
                 }
                 assert_eq!(got, want, "overlap {overlap}, chunk {chunk}");
+            }
+        }
+    }
+
+    // The same definition, through the in-place path, converted or not.
+    #[test]
+    fn filling_in_place_gives_the_defined_blocks() {
+        let stream: Vec<u32> = (0..100).collect();
+        let narrow: Vec<u16> = (0..100).collect();
+        for overlap in 0..8 {
+            let want = expected_blocks(&stream, 8, 8 - overlap);
+            for chunk in [1, 2, 3, 7, 8, 9, 17, 100] {
+                let mut framer: Framer<u32, 8> = Framer::new(overlap).unwrap();
+                let mut converting: Framer<u32, 8> = Framer::new(overlap).unwrap();
+                let (mut got, mut got_converted) = (Vec::new(), Vec::new());
+                for (piece, narrow_piece) in stream.chunks(chunk).zip(narrow.chunks(chunk)) {
+                    let mut input = piece;
+                    while let Some(block) = framer.fill(&mut input) {
+                        got.push(block.to_vec());
+                    }
+                    assert!(input.is_empty());
+                    let mut input = narrow_piece;
+                    while let Some(block) = converting.fill_converted(&mut input, u32::from) {
+                        got_converted.push(block.to_vec());
+                    }
+                }
+                assert_eq!(got, want, "overlap {overlap}, chunk {chunk}");
+                assert_eq!(got_converted, want, "overlap {overlap}, chunk {chunk}");
             }
         }
     }

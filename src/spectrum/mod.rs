@@ -8,6 +8,7 @@
 pub mod average;
 pub mod condition;
 pub mod config;
+pub mod feed;
 pub mod frame;
 pub mod scale;
 pub mod trigger;

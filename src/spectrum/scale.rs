@@ -183,6 +183,13 @@ impl Conversion {
         }
     }
 
+    /// The factors of the interior lines and of DC and Nyquist, when the conversion is a
+    /// plain multiplication (power-like to power-like); `None` when it takes a square or a
+    /// square root.
+    pub fn power_factors(&self) -> Option<(f32, f32)> {
+        (!self.from_amplitude && !self.to_amplitude).then_some((self.interior, self.edge))
+    }
+
     /// Converts `value`, the value of line `bin` of `lines` (DC first; the first and the last
     /// line use the edge gains).
     #[inline]
@@ -391,6 +398,33 @@ impl<const BINS: usize> Spectrum<BINS> {
             }
             let to = self.gains();
             rescale(&mut self.values, LineGains::squared_magnitudes(gain), to);
+        } else {
+            self.values = [0.0; BINS];
+        }
+    }
+
+    /// [`Spectrum::set_from_square_lines`] for a caller that writes the converted values
+    /// itself: `write(values, conversion)` must set every line `k` to
+    /// `conversion.apply(square_k, k, BINS)` (the fixed-point analyzers do that in integers).
+    /// Not called when the set-up is invalid or the gain is not positive (the values are
+    /// then NaN or zeros, as there).
+    #[cfg_attr(not(feature = "fixed"), allow(dead_code))]
+    pub(crate) fn set_converted(
+        &mut self,
+        gain: f64,
+        scale: Scale,
+        correction: Correction,
+        info: SpectrumInfo,
+        write: impl FnOnce(&mut [f32; BINS], &Conversion),
+    ) {
+        self.scale = scale;
+        self.correction = correction.effective(scale);
+        self.info = info;
+        if info.check::<BINS>().is_err() {
+            self.values = [f32::NAN; BINS];
+        } else if gain > 0.0 && gain.is_finite() {
+            let conversion = Conversion::between(LineGains::squared_magnitudes(gain), self.gains());
+            write(&mut self.values, &conversion);
         } else {
             self.values = [0.0; BINS];
         }

@@ -71,15 +71,18 @@
 
 mod bfp;
 mod read;
+mod to_f32;
 
 pub use read::RawPower;
 
 use crate::fft::fixed::{rfft_q15, rfft_q31};
 use crate::spectrum::condition::{Conditioning, Detrend};
 use crate::spectrum::config::{Config, PushReport, Stage, Status};
+use crate::spectrum::feed::{drain, Collector, Framing, Handoff, Unframed};
 use crate::spectrum::frame::Framer;
 use crate::window::{Factors, WindowQ15, WindowQ31};
 use bfp::{bit_length, PowerAverage};
+use heapless::spsc::{Consumer, Producer};
 
 /// The fixed-point analyzer for 16-bit converters: `i16` counts, a [`WindowQ15`] table, the
 /// Q15 transform. See [`FixedAnalyzer`].
@@ -317,9 +320,21 @@ fixed_kernel!(WindowQ31, i32, i64, 31, rfft_q31);
 /// assert!((db[100] + 602).abs() <= 1);
 /// ```
 #[derive(Clone, Debug)]
-pub struct FixedAnalyzer<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> {
+pub struct FixedAnalyzer<
+    'a,
+    W: FixedWindow<N>,
+    const N: usize,
+    const BINS: usize,
+    F: Framing = Framer<<W as sealed::Kernel<N>>::Word, N>,
+> {
+    framer: F,
+    blocks: Blocks<'a, W, N, BINS>,
+}
+
+/// Everything but the framer: the processing half.
+#[derive(Clone, Debug)]
+pub(crate) struct Blocks<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> {
     window: &'a W,
-    framer: Framer<W::Word, N>,
     block: [W::Word; N],
     average: PowerAverage<BINS>,
     conditioning: Conditioning,
@@ -328,6 +343,11 @@ pub struct FixedAnalyzer<'a, W: FixedWindow<N>, const N: usize, const BINS: usiz
     config: Config,
     status: Status,
 }
+
+/// The processing side of a split [`AnalyzerQ15`] or [`AnalyzerQ31`] (see
+/// [`crate::spectrum::feed`]), fed whole blocks; it holds no overlap buffer.
+pub type FixedBlockAnalyzer<'a, W, const N: usize, const BINS: usize> =
+    FixedAnalyzer<'a, W, N, BINS, Unframed>;
 
 impl<'a, const N: usize, const BINS: usize> AnalyzerQ15<'a, N, BINS> {
     /// Pushes `i16` counts, any number (`sensitivity` is engineering units per count,
@@ -362,9 +382,9 @@ impl<'a, const N: usize, const BINS: usize> AnalyzerQ31<'a, N, BINS> {
         let mut input = counts;
         while self
             .framer
-            .next_block_converted(&mut input, &mut self.block, i32::from)
+            .next_block_converted(&mut input, &mut self.blocks.block, i32::from)
         {
-            report.add(self.process_block(&mut |_| {}));
+            report.add(self.blocks.process(&mut |_| {}));
         }
         report
     }
@@ -374,14 +394,128 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
     fn push_words(&mut self, samples: &[W::Word], probe: &mut impl FnMut(Stage)) -> PushReport {
         let mut report = PushReport::default();
         let mut input = samples;
-        while self.framer.next_block(&mut input, &mut self.block) {
-            report.add(self.process_block(probe));
+        // Framed straight into the work block, which is windowed in place: a window pass
+        // from a separate source made the compiler unroll the loop past the Cortex-M4's
+        // registers (2.6k instructions more per 1024 block), and a copy costs about as much.
+        while self.framer.next_block(&mut input, &mut self.blocks.block) {
+            report.add(self.blocks.process(probe));
         }
         report
     }
 
-    /// Runs the pipeline on the block in `self.block`.
-    fn process_block(&mut self, probe: &mut impl FnMut(Stage)) -> PushReport {
+    /// Splits the analyzer into its interrupt side, a [`Collector`] that frames counts and
+    /// hands complete blocks to `producer`, and its processing side, which takes them from
+    /// the queue's consumer in [`FixedAnalyzer::process_queued`] (see
+    /// [`crate::spectrum::feed`]). The buffered samples go with the framer.
+    #[allow(clippy::type_complexity)]
+    pub fn split<'q, const Q: usize>(
+        self,
+        producer: Producer<'q, Handoff<W::Word, N>, Q>,
+    ) -> (
+        Collector<'q, W::Word, N, Q>,
+        FixedBlockAnalyzer<'a, W, N, BINS>,
+    ) {
+        let unframed = Unframed::new(self.framer.overlap());
+        (
+            Collector::new(self.framer, producer),
+            FixedAnalyzer {
+                framer: unframed,
+                blocks: self.blocks,
+            },
+        )
+    }
+}
+
+impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize, F: Framing>
+    FixedAnalyzer<'a, W, N, BINS, F>
+{
+    /// Runs one complete block (`N` counts, oldest first) through the pipeline: the
+    /// processing half of `push`, which calls it for every block its framer completes.
+    pub fn process_block(&mut self, block: &[W::Word; N]) -> PushReport {
+        self.process_block_probed(block, &mut |_| {})
+    }
+
+    /// [`FixedAnalyzer::process_block`] with a stage probe.
+    pub fn process_block_probed(
+        &mut self,
+        block: &[W::Word; N],
+        probe: &mut impl FnMut(Stage),
+    ) -> PushReport {
+        self.blocks.block.copy_from_slice(block);
+        self.blocks.process(probe)
+    }
+
+    /// Processes every block waiting in `consumer` (each read where it lies in the queue),
+    /// counting the blocks its [`Collector`] lost before them; returns when it is empty.
+    pub fn process_queued<const Q: usize>(
+        &mut self,
+        consumer: &mut Consumer<'_, Handoff<W::Word, N>, Q>,
+    ) -> PushReport {
+        self.process_queued_probed(consumer, &mut |_| {})
+    }
+
+    /// [`FixedAnalyzer::process_queued`] with a stage probe.
+    pub fn process_queued_probed<const Q: usize>(
+        &mut self,
+        consumer: &mut Consumer<'_, Handoff<W::Word, N>, Q>,
+        probe: &mut impl FnMut(Stage),
+    ) -> PushReport {
+        let blocks = &mut self.blocks;
+        drain(consumer, |block, lost| {
+            blocks.status.blocks_lost = blocks.status.blocks_lost.saturating_add(lost);
+            blocks.block.copy_from_slice(block);
+            let mut report = blocks.process(probe);
+            report.lost = lost;
+            report
+        })
+    }
+
+    /// The counters.
+    pub fn status(&self) -> Status {
+        self.blocks.status
+    }
+
+    /// Whether a linear average has all its blocks.
+    pub fn is_done(&self) -> bool {
+        self.blocks.average.is_done()
+    }
+
+    /// Blocks in the current average.
+    pub fn averages(&self) -> u32 {
+        self.blocks.average.averaged()
+    }
+
+    /// Forgets the buffered samples, the average and the counters.
+    pub fn reset(&mut self) {
+        self.framer.clear();
+        self.blocks.average.reset();
+        self.blocks.status = Status::default();
+    }
+
+    /// The settings as given.
+    pub fn config(&self) -> &Config {
+        &self.blocks.config
+    }
+
+    /// The window.
+    pub fn window(&self) -> &'a W {
+        self.blocks.window
+    }
+
+    /// Overlap in samples.
+    pub fn overlap(&self) -> usize {
+        self.framer.overlap()
+    }
+
+    /// Samples between block starts, `N - overlap`.
+    pub fn hop(&self) -> usize {
+        N - self.framer.overlap()
+    }
+}
+
+impl<W: FixedWindow<N>, const N: usize, const BINS: usize> Blocks<'_, W, N, BINS> {
+    /// Runs the pipeline on the block in the work block, in place.
+    fn process(&mut self, probe: &mut impl FnMut(Stage)) -> PushReport {
         let mut report = PushReport {
             blocks: 1,
             ..PushReport::default()
@@ -443,48 +577,6 @@ impl<'a, W: FixedWindow<N>, const N: usize, const BINS: usize> FixedAnalyzer<'a,
         }
         probe(Stage::Done);
         report
-    }
-
-    /// The counters.
-    pub fn status(&self) -> Status {
-        self.status
-    }
-
-    /// Whether a linear average has all its blocks.
-    pub fn is_done(&self) -> bool {
-        self.average.is_done()
-    }
-
-    /// Blocks in the current average.
-    pub fn averages(&self) -> u32 {
-        self.average.averaged()
-    }
-
-    /// Forgets the buffered samples, the average and the counters.
-    pub fn reset(&mut self) {
-        self.framer.clear();
-        self.average.reset();
-        self.status = Status::default();
-    }
-
-    /// The settings as given.
-    pub fn config(&self) -> &Config {
-        &self.config
-    }
-
-    /// The window.
-    pub fn window(&self) -> &'a W {
-        self.window
-    }
-
-    /// Overlap in samples.
-    pub fn overlap(&self) -> usize {
-        self.framer.overlap()
-    }
-
-    /// Samples between block starts, `N - overlap`.
-    pub fn hop(&self) -> usize {
-        self.framer.hop()
     }
 }
 
